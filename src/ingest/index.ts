@@ -1,0 +1,44 @@
+import type { FlowSink } from '../flow/record.js';
+import { openSource, peekSource, gunzipSource, type ByteSource } from './source.js';
+import { sniffFormat } from './sniff.js';
+import type { IngestOptions, IngestSummary, InputFormat, Ingestor } from './types.js';
+
+/** Registry of ingest paths by format; capture/ and flowlog/ fill it (see ingest/paths.ts). */
+const paths = new Map<InputFormat, Ingestor>();
+export function registerIngestor(formats: readonly InputFormat[], fn: Ingestor): void {
+  for (const f of formats) paths.set(f, fn);
+}
+
+/**
+ * Opens INPUT (a path or `-`), sniffs its format from the first bytes (gzip of any format included),
+ * and runs the matching ingest path. Throws a one-line Error only when the input cannot be opened or
+ * its format is not recognised; bad data inside a recognised input is reported in the summary.
+ */
+export async function ingestInput(name: string, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
+  await import('./paths.js');
+  let src: ByteSource = await openSource(name);
+  let { head, source } = await peekSource(src, 64);
+  if (head.length >= 2 && head[0] === 0x1f && head[1] === 0x8b) {
+    ({ head, source } = await peekSource(gunzipSource(source), 64));
+  }
+  src = source;
+  const format = opts.inputFormat ?? sniffFormat(head);
+  if (!format) {
+    await src.close();
+    throw new Error(head.length === 0 ? `${name}: empty input` : `${name}: not a recognised capture or flow export (first bytes ${hex(head.subarray(0, 8))})`);
+  }
+  const fn = paths.get(format);
+  if (!fn) {
+    await src.close();
+    throw new Error(`${name}: ${format} input is not supported yet`);
+  }
+  try {
+    return await fn(src, sink, opts);
+  } finally {
+    await src.close();
+  }
+}
+
+function hex(b: Uint8Array): string {
+  return [...b].map((x) => x.toString(16).padStart(2, '0')).join(' ');
+}

@@ -1,0 +1,3 @@
+// Side-effect module: each ingest path registers itself here. Capture path and flow-export paths
+// add their `registerIngestor(...)` imports below.
+export {};

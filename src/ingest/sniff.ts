@@ -1,0 +1,28 @@
+import type { InputFormat } from './types.js';
+
+/**
+ * Recognises an input's format from its first bytes (after gunzip). Magic numbers: METHODS.md 1.1, 1.2
+ * (pcap, pcapng), 3.9 (IPFIX version 10), 3.8 (NetFlow v9 version 9); text formats by their first
+ * non-blank character. Returns null when nothing matches.
+ */
+export function sniffFormat(h: Uint8Array): InputFormat | null {
+  if (h.length >= 4) {
+    const m = ((h[0]! << 24) | (h[1]! << 16) | (h[2]! << 8) | h[3]!) >>> 0;
+    if (m === 0xa1b2c3d4 || m === 0xd4c3b2a1 || m === 0xa1b23c4d || m === 0x4d3cb2a1) return 'pcap';
+    if (m === 0x0a0d0d0a) return 'pcapng';
+  }
+  if (h.length >= 4 && h[0] === 0 && h[1] === 10) {
+    const len = (h[2]! << 8) | h[3]!;
+    if (len >= 16) return 'ipfix';
+  }
+  if (h.length >= 4 && h[0] === 0 && h[1] === 9) return 'netflow9';
+  let i = 0;
+  if (h[0] === 0xef && h[1] === 0xbb && h[2] === 0xbf) i = 3; // UTF-8 BOM
+  while (i < h.length && (h[i] === 0x20 || h[i] === 0x09 || h[i] === 0x0d || h[i] === 0x0a)) i++;
+  if (i < h.length) {
+    const c = h[i]!;
+    if (c === 0x7b) return 'jsonl'; // '{'
+    if ((c >= 0x41 && c <= 0x5a) || (c >= 0x61 && c <= 0x7a) || c === 0x22 || c === 0x5f) return 'csv';
+  }
+  return null;
+}

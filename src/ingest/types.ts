@@ -1,0 +1,49 @@
+import type { FlowSink } from '../flow/record.js';
+import type { InputProblem } from '../util/problem.js';
+import type { ByteSource } from './source.js';
+
+export type InputFormat = 'pcap' | 'pcapng' | 'ipfix' | 'netflow9' | 'csv' | 'jsonl';
+export const INPUT_FORMATS: readonly InputFormat[] = ['pcap', 'pcapng', 'ipfix', 'netflow9', 'csv', 'jsonl'];
+
+export interface IngestOptions {
+  /** Flow updates are cut at multiples of this (ms); 0 = no cuts. Default 60 000. */
+  windowMs: number;
+  idleTimeoutMs: number;
+  activeTimeoutMs: number;
+  maxFlows: number;
+  /** Overrides sniffing (`--input-format`). */
+  inputFormat?: InputFormat;
+  /** Called for every problem as it is met (the CLI prints them, bounded). */
+  onProblem?: (p: InputProblem) => void;
+}
+
+export const DEFAULT_INGEST: IngestOptions = {
+  windowMs: 60_000,
+  idleTimeoutMs: 60_000,
+  activeTimeoutMs: 300_000,
+  maxFlows: 2_000_000,
+};
+
+export interface IngestSummary {
+  file: string;
+  format: InputFormat;
+  /** Packets read (captures) or records read (flow exports). */
+  packets: number;
+  records: number;
+  /** IP-layer bytes counted into flows. */
+  bytes: number;
+  flows: number;
+  /** Event-time span, epoch ms (NaN when nothing was read). */
+  firstMs: number;
+  lastMs: number;
+  /** Problems by reason (decode problems, reader problems, flow-table evictions, ...). */
+  problemCounts: Record<string, number>;
+  /** Fatal problem that stopped the input, if any. */
+  stoppedBy?: InputProblem;
+  truncated: boolean;
+  /** Any further counters the format reports (templates, sequence losses, capture drops, ...). */
+  counters: Record<string, number>;
+}
+
+/** One ingest path: reads a whole source, calls `sink` per FlowRecord, never throws on bad data. */
+export type Ingestor = (src: ByteSource, sink: FlowSink, opts: IngestOptions) => Promise<IngestSummary>;
