@@ -1,0 +1,3 @@
+export { CaptureParser } from './parser.js';
+export { readCapture } from './read.js';
+export type { CaptureFormat, CaptureSummary, PacketSink } from './types.js';
