@@ -1,0 +1,660 @@
+#!/usr/bin/python3
+"""Writes tidewatch's capture goldens and, independently, the flows they should produce.
+
+Run with Debian's python3 (scapy and dpkt installed there):
+
+    /usr/bin/python3 test/golden/make_capture_goldens.py [--out DIR]
+
+DIR defaults to test/golden/captures beside this script. For every golden it writes
+  DIR/<name>.pcap or .pcapng  built with scapy (packets; pcap files through scapy's RawPcapWriter;
+                              the pcapng file block by block with struct, layout in METHODS.md 1.2)
+  DIR/<name>.flows.json       the expected flows, computed by READING THE FILE BACK with dpkt
+                              (pcap reader, link layers, IP, IPv6, TCP, UDP, ICMP dissection) and
+                              aggregating with the small flow table below.
+The flow table implements the conventions written in src/flow/record.ts; it is written from those
+conventions, not from the TypeScript. Output is deterministic: fixed timestamps, fixed IP ids and
+sequence numbers, no randomness, so a re-run reproduces every file byte for byte.
+
+Every golden lies inside one 60 s window that starts at an epoch multiple of 60 (1700000040 s), so
+each flow is exactly one record under the default --window 60.
+"""
+import argparse
+import ipaddress
+import json
+import os
+import struct
+from decimal import Decimal
+
+import dpkt
+from scapy.layers.inet import ICMP, IP, TCP, UDP, fragment
+from scapy.layers.inet6 import (ICMPv6DestUnreach, ICMPv6EchoReply, ICMPv6EchoRequest, IPv6,
+                                IPv6ExtHdrDestOpt, IPv6ExtHdrFragment, IPv6ExtHdrHopByHop,
+                                IPv6ExtHdrRouting)
+from scapy.layers.l2 import CookedLinux, CookedLinuxV2, Dot1AD, Dot1Q, Ether, Loopback
+from scapy.packet import Raw
+from scapy.utils import RawPcapWriter
+
+T0 = 1700000040  # 28333334 * 60: a window boundary
+MAC_A = '02:00:00:00:00:0a'
+MAC_B = '02:00:00:00:00:0b'
+
+# Link types (METHODS.md 1.3).
+LT_NULL, LT_ETHERNET, LT_RAW, LT_LOOP, LT_SLL, LT_SLL2 = 0, 1, 101, 108, 113, 276
+# BSD address families: IPv4 is 2 everywhere; IPv6 is 24 (NetBSD/OpenBSD), 28 (FreeBSD), 30 (macOS).
+AF_INET = 2
+
+
+# --------------------------------------------------------------------------------------------
+# Part 1: packets (scapy) and link-layer framing
+# --------------------------------------------------------------------------------------------
+
+def ethertype(ip_pkt):
+    return 0x86DD if isinstance(ip_pkt, IPv6) else 0x0800
+
+
+def frame(linktype, ip_pkt, outbound=False, af6=24):
+    """One link-layer frame carrying ip_pkt. outbound only matters for the SLL packet type."""
+    af = af6 if isinstance(ip_pkt, IPv6) else AF_INET
+    if linktype == LT_ETHERNET:
+        src, dst = (MAC_A, MAC_B) if not outbound else (MAC_B, MAC_A)
+        return bytes(Ether(src=src, dst=dst) / ip_pkt)
+    if linktype == LT_RAW:
+        return bytes(ip_pkt)
+    if linktype == LT_SLL:
+        return bytes(CookedLinux(pkttype=4 if outbound else 0, lladdrtype=1, lladdrlen=6,
+                                 src=bytes.fromhex('02000000000a0000'), proto=ethertype(ip_pkt))
+                     / ip_pkt)
+    if linktype == LT_SLL2:
+        return bytes(CookedLinuxV2(proto=ethertype(ip_pkt), ifindex=2, lladdrtype=1,
+                                   pkttype=4 if outbound else 0, lladdrlen=6,
+                                   src=bytes.fromhex('02000000000a0000')) / ip_pkt)
+    if linktype == LT_NULL:
+        # scapy's Loopback writes the family little-endian (the host order of the machine we model).
+        return bytes(Loopback(type=af) / ip_pkt)
+    if linktype == LT_LOOP:
+        # LINKTYPE_LOOP: the family is always big-endian, so struct rather than scapy's host-order field.
+        return struct.pack('>I', af) + bytes(ip_pkt)
+    raise ValueError(linktype)
+
+
+def tcp(src, dst, sport, dport, flags, seq, ack=0, payload=b'', ipv6=False):
+    ip_layer = IPv6(src=src, dst=dst) if ipv6 else IP(src=src, dst=dst, id=seq & 0xFFFF)
+    pkt = ip_layer / TCP(sport=sport, dport=dport, flags=flags, seq=seq, ack=ack, window=64240)
+    return pkt / Raw(payload) if payload else pkt
+
+
+def udp(src, dst, sport, dport, payload, ipv6=False, ip_id=1):
+    ip_layer = IPv6(src=src, dst=dst) if ipv6 else IP(src=src, dst=dst, id=ip_id)
+    return ip_layer / UDP(sport=sport, dport=dport) / Raw(payload)
+
+
+def quote_v4(orig):
+    """RFC 792: an ICMP error carries the offending IP header plus the first 8 octets of its data."""
+    raw = bytes(orig)
+    return raw[:(raw[0] & 0x0F) * 4 + 8]
+
+
+def udp_exchange(linktype, client, server, sport, dport, ipv6=False, t=0, af6=24):
+    """A request and its answer: (time offset in µs, frame) pairs."""
+    return [
+        (t, frame(linktype, udp(client, server, sport, dport, b'query-' + bytes([65 + sport % 26]) * 20,
+                                ipv6, ip_id=sport), af6=af6)),
+        (t + 1500, frame(linktype, udp(server, client, dport, sport, b'answer' * 12, ipv6, ip_id=dport),
+                         outbound=True, af6=af6)),
+    ]
+
+
+def tcp_session(linktype, client, server, sport, dport, t=0, ipv6=False):
+    """Full handshake, one request, one response, FIN both ways, last ACK."""
+    c, s = 1000, 5000
+    req, resp = b'hello from client\n' * 3, b'greetings from server\n' * 10
+    pkts = [
+        (client, server, sport, dport, 'S', c, 0, b''),
+        (server, client, dport, sport, 'SA', s, c + 1, b''),
+        (client, server, sport, dport, 'A', c + 1, s + 1, b''),
+        (client, server, sport, dport, 'PA', c + 1, s + 1, req),
+        (server, client, dport, sport, 'A', s + 1, c + 1 + len(req), b''),
+        (server, client, dport, sport, 'PA', s + 1, c + 1 + len(req), resp),
+        (client, server, sport, dport, 'A', c + 1 + len(req), s + 1 + len(resp), b''),
+        (client, server, sport, dport, 'FA', c + 1 + len(req), s + 1 + len(resp), b''),
+        (server, client, dport, sport, 'FA', s + 1 + len(resp), c + 2 + len(req), b''),
+        (client, server, sport, dport, 'A', c + 2 + len(req), s + 2 + len(resp), b''),
+    ]
+    out = []
+    for i, (a, b, sp, dp, fl, seq, ack, data) in enumerate(pkts):
+        out.append((t + i * 2000, frame(linktype, tcp(a, b, sp, dp, fl, seq, ack, data, ipv6),
+                                        outbound=a == server)))
+    return out
+
+
+def golden_ethernet():
+    lt = LT_ETHERNET
+    echo_req = IP(src='192.0.2.10', dst='198.51.100.20', id=7) / ICMP(type=8, id=0x77, seq=1) / Raw(b'ping' * 8)
+    echo_rep = IP(src='198.51.100.20', dst='192.0.2.10', id=8) / ICMP(type=0, id=0x77, seq=1) / Raw(b'ping' * 8)
+    echo6_req = IPv6(src='2001:db8::10', dst='2001:db8::20') / ICMPv6EchoRequest(id=5, seq=1, data=b'six' * 10)
+    echo6_rep = IPv6(src='2001:db8::20', dst='2001:db8::10') / ICMPv6EchoReply(id=5, seq=1, data=b'six' * 10)
+    pkts = udp_exchange(lt, '192.0.2.10', '198.51.100.53', 40001, 53, t=100_000)
+    pkts += [(200_000, frame(lt, echo_req)), (201_000, frame(lt, echo_rep, outbound=True))]
+    pkts += [(300_000, frame(lt, echo6_req)), (300_800, frame(lt, echo6_rep, outbound=True))]
+    pkts += [(400_000, frame(lt, udp('192.0.2.10', '203.0.113.9', 40002, 514, b'one-way log line')))]
+    pkts += udp_exchange(lt, '2001:db8::10', '2001:db8::53', 40003, 53, ipv6=True, t=500_000)
+    return pkts
+
+
+def golden_link(lt, af6=24):
+    """The same small mix (IPv4 and IPv6 UDP exchanges, one TCP handshake) on another link type."""
+    pkts = udp_exchange(lt, '192.0.2.11', '198.51.100.53', 41001, 53, t=100_000, af6=af6)
+    pkts += udp_exchange(lt, '2001:db8::11', '2001:db8::53', 41002, 53, ipv6=True, t=200_000, af6=af6)
+    pkts += [(300_000, frame(lt, tcp('192.0.2.11', '198.51.100.80', 41003, 8080, 'S', 7000), af6=af6)),
+             (300_900, frame(lt, tcp('198.51.100.80', '192.0.2.11', 8080, 41003, 'SA', 9000, 7001),
+                             outbound=True, af6=af6)),
+             (301_800, frame(lt, tcp('192.0.2.11', '198.51.100.80', 41003, 8080, 'A', 7001, 9001), af6=af6))]
+    return pkts
+
+
+def golden_null():
+    """DLT_NULL, family in little-endian host order; IPv6 under all three BSD family values."""
+    pkts = udp_exchange(LT_NULL, '192.0.2.12', '198.51.100.53', 42001, 53, t=100_000)
+    for i, af6 in enumerate((24, 28, 30)):
+        pkts += udp_exchange(LT_NULL, '2001:db8::12', '2001:db8::53', 42010 + i, 53, ipv6=True,
+                             t=200_000 + i * 100_000, af6=af6)
+    return pkts
+
+
+def vlan_frame(ip_pkt, tags, outbound=False):
+    """tags: outermost first, as (TPID, VID)."""
+    src, dst = (MAC_A, MAC_B) if not outbound else (MAC_B, MAC_A)
+    layer = Ether(src=src, dst=dst, type=tags[0][0])
+    for i, (_, vid) in enumerate(tags):
+        next_type = tags[i + 1][0] if i + 1 < len(tags) else ethertype(ip_pkt)
+        tag_cls = Dot1AD if tags[i][0] == 0x88A8 else Dot1Q
+        layer = layer / tag_cls(vlan=vid, prio=0, type=next_type)
+    return bytes(layer / ip_pkt)
+
+
+def golden_vlan(tags):
+    a, b = '10.20.0.5', '10.20.0.53'
+    pkts = [(100_000, vlan_frame(udp(a, b, 43001, 53, b'vlan query' * 3, ip_id=1), tags)),
+            (101_000, vlan_frame(udp(b, a, 53, 43001, b'vlan answer' * 5, ip_id=2), tags, True)),
+            (200_000, vlan_frame(tcp(a, '10.20.0.80', 43002, 80, 'S', 100), tags)),
+            (200_500, vlan_frame(tcp('10.20.0.80', a, 80, 43002, 'RA', 0, 101), tags, True)),
+            (300_000, vlan_frame(udp('2001:db8:20::5', '2001:db8:20::53', 43003, 53, b'v6 in a vlan',
+                                     ipv6=True), tags))]
+    return pkts
+
+
+def golden_ipv4_fragments():
+    lt = LT_ETHERNET
+    whole = IP(src='192.0.2.30', dst='198.51.100.30', id=0x1234) / UDP(sport=44001, dport=5353) / Raw(b'F' * 1192)
+    frags = fragment(whole, fragsize=400)  # 1200 octets of UDP: 400 + 400 + 400, MF on the first two
+    assert len(frags) == 3
+    pkts = [(100_000 + i * 300, frame(lt, f)) for i, f in enumerate(frags)]
+    pkts.append((102_000, frame(lt, udp('198.51.100.30', '192.0.2.30', 5353, 44001, b'ok', ip_id=9),
+                                outbound=True)))
+    # A non-first fragment (offset 800 octets) whose first fragment never arrived: no ports to read.
+    orphan = IP(src='192.0.2.30', dst='198.51.100.30', id=0x2222, frag=100, flags=0, proto=17) / Raw(b'G' * 200)
+    pkts.append((200_000, frame(lt, orphan)))
+    return pkts
+
+
+def golden_ipv6_ext_headers():
+    lt = LT_ETHERNET
+    a, b = '2001:db8:6::a', '2001:db8:6::b'
+    chain = (IPv6(src=a, dst=b) / IPv6ExtHdrHopByHop() / IPv6ExtHdrDestOpt()
+             / IPv6ExtHdrRouting(addresses=['2001:db8:6::1'], segleft=0)
+             / IPv6ExtHdrFragment(offset=0, m=0, id=0x600D)  # atomic fragment (RFC 8200 4.5)
+             / UDP(sport=45001, dport=7) / Raw(b'through four extension headers'))
+    answer = IPv6(src=b, dst=a) / UDP(sport=7, dport=45001) / Raw(b'plain answer')
+    syn = IPv6(src=a, dst=b) / IPv6ExtHdrHopByHop() / TCP(sport=45002, dport=22, flags='S', seq=1)
+    synack = IPv6(src=b, dst=a) / IPv6ExtHdrDestOpt() / TCP(sport=22, dport=45002, flags='SA', seq=50, ack=2)
+    ack = IPv6(src=a, dst=b) / TCP(sport=45002, dport=22, flags='A', seq=2, ack=51)
+    return [(100_000, frame(lt, chain)), (101_000, frame(lt, answer, outbound=True)),
+            (200_000, frame(lt, syn)), (200_400, frame(lt, synack, outbound=True)),
+            (200_800, frame(lt, ack))]
+
+
+def golden_ipv6_fragments():
+    lt = LT_ETHERNET
+    a, b = '2001:db8:6::c', '2001:db8:6::d'
+    # Built under its IPv6 header so that scapy computes the UDP checksum over the real pseudo-header.
+    datagram = bytes((IPv6(src=a, dst=b) / UDP(sport=45101, dport=5353) / Raw(b'H' * 992))[UDP])
+    first = IPv6(src=a, dst=b) / IPv6ExtHdrFragment(nh=17, offset=0, m=1, id=0xF00D) / Raw(datagram[:504])
+    second = IPv6(src=a, dst=b) / IPv6ExtHdrFragment(nh=17, offset=504 // 8, m=0, id=0xF00D) / Raw(datagram[504:])
+    answer = IPv6(src=b, dst=a) / UDP(sport=5353, dport=45101) / Raw(b'got it')
+    return [(100_000, frame(lt, first)), (100_300, frame(lt, second)),
+            (101_000, frame(lt, answer, outbound=True))]
+
+
+def golden_icmp_unreachable():
+    lt = LT_ETHERNET
+    probe = udp('192.0.2.40', '198.51.100.40', 46001, 33434, b'probe' * 4, ip_id=40)
+    err = IP(src='198.51.100.40', dst='192.0.2.40', id=41) / ICMP(type=3, code=3) / Raw(quote_v4(probe))
+    return [(100_000, frame(lt, probe)), (100_700, frame(lt, err, outbound=True))]
+
+
+def golden_icmp6_unreachable():
+    lt = LT_ETHERNET
+    probe = udp('2001:db8:40::a', '2001:db8:40::b', 46101, 33434, b'probe6' * 4, ipv6=True)
+    err = IPv6(src='2001:db8:40::b', dst='2001:db8:40::a') / ICMPv6DestUnreach(code=4) / Raw(bytes(probe))
+    return [(100_000, frame(lt, probe)), (100_700, frame(lt, err, outbound=True))]
+
+
+def golden_tcp_refused():
+    lt = LT_ETHERNET
+    a, b = '192.0.2.50', '198.51.100.50'
+    return [(100_000, frame(lt, tcp(a, b, 47001, 23, 'S', 3000))),
+            (100_400, frame(lt, tcp(b, a, 23, 47001, 'RA', 0, 3001), outbound=True))]
+
+
+def golden_tcp_outcomes():
+    """The other TCP outcomes: unanswered SYNs, a half-open handshake, a capture joined mid-stream."""
+    lt = LT_ETHERNET
+    a = '192.0.2.51'
+    return [
+        (100_000, frame(lt, tcp(a, '198.51.100.51', 47101, 443, 'S', 10))),
+        (1_100_000, frame(lt, tcp(a, '198.51.100.51', 47101, 443, 'S', 10))),  # retransmitted SYN
+        (2_000_000, frame(lt, tcp(a, '198.51.100.52', 47102, 443, 'S', 20))),
+        (2_000_300, frame(lt, tcp('198.51.100.52', a, 443, 47102, 'SA', 90, 21), outbound=True)),
+        (3_000_000, frame(lt, tcp(a, '198.51.100.53', 47103, 443, 'PA', 500, 800, b'mid-stream data'))),
+        (3_000_200, frame(lt, tcp('198.51.100.53', a, 443, 47103, 'A', 800, 515), outbound=True)),
+    ]
+
+
+def golden_tcp_session():
+    return tcp_session(LT_ETHERNET, '192.0.2.60', '198.51.100.60', 48001, 8000, t=100_000)
+
+
+def golden_snaplen():
+    """Frames cut at 64 octets by the capture; the IP length fields still say the real size."""
+    lt = LT_ETHERNET
+    pkts = tcp_session(lt, '192.0.2.70', '198.51.100.70', 49001, 8000, t=100_000)
+    pkts += udp_exchange(lt, '2001:db8:70::a', '2001:db8:70::b', 49002, 53, ipv6=True, t=300_000)
+    return pkts
+
+
+def golden_nanosecond():
+    pkts = udp_exchange(LT_ETHERNET, '192.0.2.80', '198.51.100.80', 50001, 123, t=100_000)
+    pkts += tcp_session(LT_ETHERNET, '192.0.2.80', '198.51.100.81', 50002, 8000, t=200_000)
+    return pkts
+
+
+def golden_big_endian():
+    pkts = udp_exchange(LT_ETHERNET, '192.0.2.90', '198.51.100.90', 51001, 53, t=100_000)
+    pkts += tcp_session(LT_ETHERNET, '192.0.2.90', '198.51.100.91', 51002, 8000, t=200_000)
+    return pkts
+
+
+# --------------------------------------------------------------------------------------------
+# Part 2: writing files
+# --------------------------------------------------------------------------------------------
+
+def write_pcap(path, linktype, pkts, endian='<', nano=False, snaplen=65535):
+    """pkts: (offset in µs from T0, frame). For nanosecond files the sub-second field gets an
+    extra 789 ns so that a reader dividing by 10^6 instead of 10^9 is caught."""
+    w = RawPcapWriter(path, linktype=linktype, endianness=endian, nano=nano, snaplen=snaplen)
+    w.write_header(None)
+    for off_us, data in pkts:
+        sec, frac = T0 + off_us // 1_000_000, off_us % 1_000_000
+        if nano:
+            frac = frac * 1000 + 789
+        cap = data[:snaplen]
+        w.write_packet(cap, sec=sec, usec=frac, caplen=len(cap), wirelen=len(data))
+    w.close()
+
+
+def pcapng_block(block_type, body):
+    """METHODS.md 1.2: type, total length, body padded to 32 bits, total length again (little-endian)."""
+    body += b'\x00' * (-len(body) % 4)
+    total = 12 + len(body)
+    return struct.pack('<II', block_type, total) + body + struct.pack('<I', total)
+
+
+def pcapng_option(code, value):
+    return struct.pack('<HH', code, len(value)) + value + b'\x00' * (-len(value) % 4)
+
+
+def write_pcapng_two_interfaces(path):
+    """SHB; IDB 0 = Ethernet, if_tsresol 6 (µs); IDB 1 = raw IP, if_tsresol 9 (ns), snaplen 0 (no limit);
+    EPBs interleaved from both interfaces. Returns nothing; the expectation reads the file back."""
+    out = [pcapng_block(0x0A0D0D0A, struct.pack('<IHHq', 0x1A2B3C4D, 1, 0, -1)
+                        + pcapng_option(4, b'tidewatch make_capture_goldens.py') + pcapng_option(0, b''))]
+    out.append(pcapng_block(1, struct.pack('<HHI', LT_ETHERNET, 0, 65535) + pcapng_option(2, b'eth0')
+                            + pcapng_option(9, b'\x06') + pcapng_option(0, b'')))
+    out.append(pcapng_block(1, struct.pack('<HHI', LT_RAW, 0, 0) + pcapng_option(2, b'tun0')
+                            + pcapng_option(9, b'\x09') + pcapng_option(0, b'')))
+    eth = udp_exchange(LT_ETHERNET, '192.0.2.100', '198.51.100.100', 52001, 53, t=100_000)
+    eth += tcp_session(LT_ETHERNET, '192.0.2.100', '198.51.100.101', 52002, 8000, t=150_000)
+    raw = udp_exchange(LT_RAW, '10.99.0.1', '10.99.0.2', 52003, 4789, t=120_000)
+    raw += udp_exchange(LT_RAW, '2001:db8:99::1', '2001:db8:99::2', 52004, 53, ipv6=True, t=170_000)
+    tagged = [(t, 0, d) for t, d in eth] + [(t, 1, d) for t, d in raw]
+    tagged.sort(key=lambda x: (x[0], x[1]))
+    for off_us, iface, data in tagged:
+        if iface == 0:
+            ticks = (T0 * 1_000_000) + off_us
+        else:
+            ticks = (T0 * 1_000_000 + off_us) * 1000 + 321  # sub-µs part only the ns interface can carry
+        body = struct.pack('<IIIII', iface, ticks >> 32, ticks & 0xFFFFFFFF, len(data), len(data)) + data
+        body += b'\x00' * (-len(data) % 4)
+        out.append(pcapng_block(6, body))
+    with open(path, 'wb') as f:
+        f.write(b''.join(out))
+
+
+# --------------------------------------------------------------------------------------------
+# Part 3: reading back (dpkt) -> (timestamp as Decimal seconds, linktype, frame bytes)
+# --------------------------------------------------------------------------------------------
+
+def read_pcap(path):
+    with open(path, 'rb') as f:
+        r = dpkt.pcap.Reader(f)
+        lt = r.datalink()
+        for ts, buf in r:
+            # dpkt yields a float for µs files and a Decimal for ns files; repr() of the float is the
+            # shortest decimal that round-trips, i.e. exactly the written sec.usec.
+            yield (ts if isinstance(ts, Decimal) else Decimal(repr(ts))), lt, buf
+
+
+def read_pcapng(path):
+    """Own walk of the blocks, because dpkt.pcapng.Reader applies the first interface's link type and
+    if_tsresol to every packet. Uses dpkt's block classes for the field layout. Little-endian only
+    (what this script writes)."""
+    with open(path, 'rb') as f:
+        data = f.read()
+    interfaces = []  # (linktype, ticks per second)
+    pos = 0
+    while pos + 12 <= len(data):
+        btype, blen = struct.unpack_from('<II', data, pos)
+        block = data[pos:pos + blen]
+        if btype == 0x0A0D0D0A:
+            interfaces = []
+        elif btype == 1:
+            idb = dpkt.pcapng.InterfaceDescriptionBlockLE(block)
+            per_second = 10 ** 6
+            for opt in idb.opts:
+                if opt.code == dpkt.pcapng.PCAPNG_OPT_IF_TSRESOL:
+                    v = opt.data[0]
+                    per_second = 2 ** (v & 0x7F) if v & 0x80 else 10 ** v
+            interfaces.append((idb.linktype, per_second))
+        elif btype == 6:
+            epb = dpkt.pcapng.EnhancedPacketBlockLE(block)
+            linktype, per_second = interfaces[epb.iface_id]
+            ticks = (epb.ts_high << 32) | epb.ts_low
+            yield Decimal(ticks) / Decimal(per_second), linktype, epb.pkt_data
+        pos += blen
+
+
+def ip_layer(linktype, buf):
+    """Link layer via dpkt. Returns (dpkt IP or IP6, outermost VID or None)."""
+    if linktype == LT_ETHERNET:
+        eth = dpkt.ethernet.Ethernet(buf)
+        tags = getattr(eth, 'vlan_tags', None)
+        return eth.data, (tags[0].id if tags else None)
+    if linktype == LT_RAW:
+        return (dpkt.ip.IP(buf) if buf[0] >> 4 == 4 else dpkt.ip6.IP6(buf)), None
+    if linktype == LT_SLL:
+        return dpkt.sll.SLL(buf).data, None
+    if linktype == LT_SLL2:
+        return dpkt.sll2.SLL2(buf).data, None
+    if linktype in (LT_NULL, LT_LOOP):
+        return dpkt.loopback.Loopback(buf).data, None  # dpkt accepts the family in either byte order
+    raise ValueError('link type %d' % linktype)
+
+
+# --------------------------------------------------------------------------------------------
+# Part 4: the reference flow table (conventions of src/flow/record.ts)
+# --------------------------------------------------------------------------------------------
+
+ICMP_ECHO_REPLY_TO_REQUEST = {(1, 0): 8, (58, 129): 128}
+ICMP_ERROR_TYPES = {1: {3, 4, 5, 11, 12}, 58: {1, 2, 3, 4}}
+ICMP_UNREACHABLE = {1: 3, 58: 1}
+
+
+def addr(packed):
+    a = ipaddress.ip_address(packed)
+    if a.version == 6 and a.ipv4_mapped:
+        a = a.ipv4_mapped
+    return a
+
+
+class Flow:
+    def __init__(self, proto, src, dst, sport, dport, ts, vlan):
+        self.proto, self.src, self.dst, self.sport, self.dport = proto, src, dst, sport, dport
+        self.start = self.end = ts
+        self.pkts = self.bytes = self.rpkts = self.rbytes = self.flags = self.rflags = 0
+        self.vlan = vlan
+        self.opened_with_syn = None  # TCP: was the first packet a SYN without ACK?
+        self.syn_ack_back = self.completed = self.reset_back = self.icmp_rejected = False
+
+    def add(self, forward, ts, ip_len, tcp_flags):
+        self.end = ts
+        if forward:
+            self.pkts += 1
+            self.bytes += ip_len
+            self.flags |= tcp_flags
+        else:
+            self.rpkts += 1
+            self.rbytes += ip_len
+            self.rflags |= tcp_flags
+        if self.proto != 6:
+            return
+        if self.opened_with_syn is None:
+            self.opened_with_syn = forward and tcp_flags & 0x12 == 0x02
+        if not forward and tcp_flags & 0x12 == 0x12:
+            self.syn_ack_back = True
+        elif not forward and tcp_flags & 0x04 and not self.syn_ack_back:
+            self.reset_back = True
+        elif forward and self.syn_ack_back and tcp_flags & 0x10:
+            self.completed = True
+
+    def outcome(self):
+        if self.proto in (1, 58):
+            return 'n/a'
+        if self.icmp_rejected:
+            return 'rejected'
+        if self.proto == 6:
+            if not self.opened_with_syn:
+                return 'partial'
+            if self.reset_back:
+                return 'rejected'
+            if self.syn_ack_back:
+                return 'established' if self.completed else 'partial'
+            return 'unanswered' if self.rpkts == 0 else 'partial'
+        return 'established' if self.rpkts > 0 else 'unanswered'
+
+    def record(self, exporter):
+        rec = {
+            'start': ms(self.start), 'end': ms(self.end), 'proto': self.proto,
+            'src': str(self.src), 'dst': str(self.dst), 'sport': self.sport, 'dport': self.dport,
+            'pkts': self.pkts, 'bytes': self.bytes, 'rpkts': self.rpkts, 'rbytes': self.rbytes,
+            'flags': self.flags, 'rflags': self.rflags, 'outcome': self.outcome(), 'exporter': exporter,
+        }
+        if self.vlan is not None:
+            rec['vlan'] = self.vlan
+        return rec
+
+
+def ms(ts):
+    """Epoch seconds (exact Decimal) to epoch milliseconds: the nearest double, as JSON will carry it."""
+    return float(ts * 1000)
+
+
+def endpoint_key(proto, a, pa, b, pb):
+    """Direction-free key: the two (address, port) ends in a fixed order."""
+    ends = sorted([((a.version, a.packed), pa), ((b.version, b.packed), pb)])
+    return (proto,) + tuple(ends)
+
+
+class FlowTable:
+    def __init__(self):
+        self.flows = {}
+        self.fragments = {}  # (src, dst, proto, id) -> (sport, dport) of the first fragment
+        self.order = []
+
+    def packet(self, ts, ip, vlan):
+        src, dst = addr(ip.src), addr(ip.dst)
+        if isinstance(ip, dpkt.ip.IP):
+            ip_len, proto = ip.len, ip.p
+            frag_id, frag_off, more = ip.id, ip.offset, ip.mf
+        else:
+            ip_len, proto = ip.plen + 40, ip.p  # dpkt sets p to the header that ends the chain
+            frag = next((h for h in ip.all_extension_headers
+                         if isinstance(h, dpkt.ip6.IP6FragmentHeader)), None)
+            frag_id, frag_off, more = (frag.id, frag.frag_off, frag.m_flag) if frag else (0, 0, 0)
+        transport = ip.data
+        if frag_off:  # a later fragment: no transport header, ports from its first fragment if seen
+            sport, dport = self.fragments.get((src, dst, proto, frag_id), (0, 0))
+            self.count(ts, proto, src, dst, sport, dport, ip_len, 0, vlan)
+            return
+        if proto in (6, 17):
+            sport, dport = transport.sport, transport.dport
+            if more:
+                self.fragments[(src, dst, proto, frag_id)] = (sport, dport)
+            self.count(ts, proto, src, dst, sport, dport, ip_len, transport.flags if proto == 6 else 0, vlan)
+        elif proto in (1, 58):
+            self.icmp(ts, proto, src, dst, transport, ip_len, vlan)
+        else:
+            self.count(ts, proto, src, dst, 0, 0, ip_len, 0, vlan)
+
+    def icmp(self, ts, proto, src, dst, msg, ip_len, vlan):
+        request = ICMP_ECHO_REPLY_TO_REQUEST.get((proto, msg.type))
+        if request is not None:  # a reply: count it backwards on its request's flow
+            self.count(ts, proto, dst, src, 0, request * 256 + msg.code, ip_len, 0, vlan, reverse=True)
+            return
+        self.count(ts, proto, src, dst, 0, msg.type * 256 + msg.code, ip_len, 0, vlan)
+        if msg.type == ICMP_UNREACHABLE[proto]:
+            quoted = msg.data.data  # Unreach -> quoted IP / IPv6 header
+            inner = quoted.data
+            flow = self.flows.get(endpoint_key(quoted.p, addr(quoted.src), inner.sport,
+                                               addr(quoted.dst), inner.dport))
+            if flow is not None:
+                flow.icmp_rejected = True
+
+    def count(self, ts, proto, src, dst, sport, dport, ip_len, tcp_flags, vlan, reverse=False):
+        """reverse: the packet travels dst -> src of the flow named (src, sport, dst, dport)."""
+        key = endpoint_key(proto, src, sport, dst, dport)
+        flow = self.flows.get(key)
+        if flow is None:
+            flow = Flow(proto, src, dst, sport, dport, ts, vlan)
+            self.flows[key] = flow
+            self.order.append(flow)
+        if proto in (1, 58):
+            forward = (src == flow.src) != reverse
+        else:
+            forward = (src, sport) == (flow.src, flow.sport)
+        flow.add(forward, ts, ip_len, tcp_flags)
+
+
+def expected_flows(packets, exporter):
+    table = FlowTable()
+    for ts, linktype, buf in packets:
+        ip, vlan = ip_layer(linktype, buf)
+        table.packet(ts, ip, vlan)
+    recs = [f.record(exporter) for f in table.order]
+    recs.sort(key=lambda r: (r['start'], r['proto'], r['src'], r['dst'], r['sport'], r['dport']))
+    return recs
+
+
+# --------------------------------------------------------------------------------------------
+# Part 5: the goldens
+# --------------------------------------------------------------------------------------------
+
+# name, file format note, what it covers, writer
+GOLDENS = [
+    ('ethernet.pcap', 'pcap LE µs, linktype 1',
+     'Ethernet II; IPv4 and IPv6 UDP exchanges; ICMP and ICMPv6 echo with the reply folded in; '
+     'one-way UDP',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_ethernet())),
+    ('raw-ip.pcap', 'pcap LE µs, linktype 101',
+     'raw IP, version picked from the first nibble (IPv4 and IPv6)',
+     lambda p: write_pcap(p, LT_RAW, golden_link(LT_RAW))),
+    ('linux-sll.pcap', 'pcap LE µs, linktype 113',
+     'Linux cooked v1, EtherType at offset 14',
+     lambda p: write_pcap(p, LT_SLL, golden_link(LT_SLL))),
+    ('linux-sll2.pcap', 'pcap LE µs, linktype 276',
+     'Linux cooked v2, EtherType at offset 0',
+     lambda p: write_pcap(p, LT_SLL2, golden_link(LT_SLL2))),
+    ('bsd-null.pcap', 'pcap LE µs, linktype 0',
+     'BSD loopback, family in little-endian host order; IPv6 as family 24, 28 and 30',
+     lambda p: write_pcap(p, LT_NULL, golden_null())),
+    ('bsd-loop.pcap', 'pcap LE µs, linktype 108',
+     'OpenBSD loopback, family big-endian (IPv6 = 24)',
+     lambda p: write_pcap(p, LT_LOOP, golden_link(LT_LOOP, af6=24))),
+    ('vlan-8021q.pcap', 'pcap LE µs, linktype 1',
+     'one 802.1Q tag (TPID 0x8100, VID 100) on UDP, a refused TCP SYN and IPv6',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_vlan([(0x8100, 100)]))),
+    ('vlan-qinq.pcap', 'pcap LE µs, linktype 1',
+     'QinQ: S-tag 0x88A8 VID 200 outside, C-tag 0x8100 VID 300 inside; vlan = outermost = 200',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_vlan([(0x88A8, 200), (0x8100, 300)]))),
+    ('ipv4-fragments.pcap', 'pcap LE µs, linktype 1',
+     'a UDP datagram in 3 IPv4 fragments (one flow, 3 packets) and its answer; a later fragment whose '
+     'first is missing (counted to the host pair with ports 0)',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_ipv4_fragments())),
+    ('ipv6-ext-headers.pcap', 'pcap LE µs, linktype 1',
+     'IPv6 UDP behind hop-by-hop, destination options, routing and an atomic fragment header; a TCP '
+     'handshake with a hop-by-hop and a destination options header',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_ipv6_ext_headers())),
+    ('ipv6-fragments.pcap', 'pcap LE µs, linktype 1',
+     'a UDP datagram in 2 IPv6 fragments (fragment header right after the fixed header) and its answer',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_ipv6_fragments())),
+    ('icmp-unreachable.pcap', 'pcap LE µs, linktype 1',
+     'UDP probe answered by ICMP port unreachable (3/3): the probe flow is rejected, the ICMP error is its '
+     'own flow with dport 771',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_icmp_unreachable())),
+    ('icmp6-unreachable.pcap', 'pcap LE µs, linktype 1',
+     'UDP probe answered by ICMPv6 port unreachable (1/4): probe rejected, error flow dport 260',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_icmp6_unreachable())),
+    ('tcp-refused.pcap', 'pcap LE µs, linktype 1',
+     'SYN answered by RST-ACK: rejected',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_tcp_refused())),
+    ('tcp-outcomes.pcap', 'pcap LE µs, linktype 1',
+     'SYN retransmitted with no answer (unanswered); SYN and SYN-ACK only (partial); first packet not a '
+     'SYN (partial)',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_tcp_outcomes())),
+    ('tcp-session.pcap', 'pcap LE µs, linktype 1',
+     'full handshake, data both ways, FIN teardown: established, flags 0x1B both ways',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_tcp_session())),
+    ('snaplen-64.pcap', 'pcap LE µs, linktype 1, snaplen 64',
+     'frames cut to 64 captured octets; bytes still from the IP length fields',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_snaplen(), snaplen=64)),
+    ('nanosecond.pcap', 'pcap LE ns (magic A1B23C4D), linktype 1',
+     'nanosecond timestamps (each has +789 ns)',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_nanosecond(), nano=True)),
+    ('big-endian.pcap', 'pcap BE µs (on disk A1 B2 C3 D4), linktype 1',
+     'file and record headers big-endian',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_big_endian(), endian='>')),
+    ('pcapng-two-interfaces.pcapng', 'pcapng LE, IDB 0 Ethernet tsresol 6, IDB 1 raw IP tsresol 9 snaplen 0',
+     'two interfaces with different link types and timestamp resolutions, EPBs interleaved',
+     write_pcapng_two_interfaces),
+]
+
+
+def main():
+    here = os.path.dirname(os.path.abspath(__file__))
+    ap = argparse.ArgumentParser(description=__doc__.split('\n')[0])
+    ap.add_argument('--out', default=os.path.join(here, 'captures'))
+    args = ap.parse_args()
+    os.makedirs(args.out, exist_ok=True)
+    for name, fmt, covers, write in GOLDENS:
+        path = os.path.join(args.out, name)
+        write(path)
+        packets = read_pcapng(path) if name.endswith('.pcapng') else read_pcap(path)
+        flows = expected_flows(packets, exporter=name)
+        head = {
+            'capture': name,
+            'format': fmt,
+            'covers': covers,
+            'expected_by': 'dpkt (read back and dissected) + flow table in test/golden/make_capture_goldens.py',
+            'count': len(flows),
+        }
+        # One flow per line, so a diff of a regenerated golden shows which flow changed.
+        lines = ['{'] + ['  %s: %s,' % (json.dumps(k), json.dumps(v, ensure_ascii=False)) for k, v in head.items()]
+        lines.append('  "flows": [')
+        lines += ['    %s%s' % (json.dumps(f), ',' if i + 1 < len(flows) else '') for i, f in enumerate(flows)]
+        lines += ['  ]', '}']
+        with open(path.rsplit('.', 1)[0] + '.flows.json', 'w', encoding='utf-8') as f:
+            f.write('\n'.join(lines) + '\n')
+        print('%-30s %2d flows' % (name, len(flows)))
+
+
+if __name__ == '__main__':
+    main()
