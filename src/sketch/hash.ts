@@ -70,18 +70,17 @@ export function hashPair(a: number, b: number, seed = 0): number {
 let rHi = 0;
 let rLo = 0;
 
-/** (aHi:aLo) * (bHi:bLo) mod 2^64 into rHi:rLo. The low-word product is split into 16-bit limbs so
- * every intermediate stays below 2^53 and is exact in a double. */
+/** (aHi:aLo) * (bHi:bLo) mod 2^64 into rHi:rLo. The high word of the low-word product comes from
+ * 16-bit limb products, each below 2^32, so everything stays exact without division. */
 function mul64(aHi: number, aLo: number, bHi: number, bLo: number): void {
   const a0 = aLo & 0xffff;
   const a1 = aLo >>> 16;
   const b0 = bLo & 0xffff;
   const b1 = bLo >>> 16;
-  const mid = a0 * b1 + a1 * b0; // < 2^33
-  const low = a0 * b0 + (mid % 65536) * 65536; // < 2^33
-  const carry = Math.floor(low / 4294967296);
-  const hiOfLowProduct = a1 * b1 + Math.floor(mid / 65536) + carry;
-  rLo = low >>> 0;
+  const u = a1 * b0 + ((a0 * b0) >>> 16); // < 2^32
+  const v = a0 * b1 + (u & 0xffff); // < 2^32
+  const hiOfLowProduct = a1 * b1 + (u >>> 16) + (v >>> 16);
+  rLo = Math.imul(aLo, bLo) >>> 0;
   rHi = (hiOfLowProduct + Math.imul(aHi, bLo) + Math.imul(aLo, bHi)) >>> 0;
 }
 
