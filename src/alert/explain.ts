@@ -81,11 +81,11 @@ export function fmtBytes(x: number): string {
   const units = ['B', 'kB', 'MB', 'GB', 'TB', 'PB'];
   let v = Number.isFinite(x) ? Math.max(0, x) : 0;
   let i = 0;
-  while (v >= 1000 && i < units.length - 1) {
+  while (v >= 999.5 && i < units.length - 1) {
     v /= 1000;
     i++;
   }
-  return i === 0 ? `${Math.round(v)} B` : `${fmtNumber(round(v, v < 10 ? 1 : 0))} ${units[i]}`;
+  return i === 0 ? `${Math.round(v)} B` : `${v < 9.95 ? v.toFixed(1) : Math.round(v)} ${units[i]}`;
 }
 
 function fmtPercent(ratio: number): string {

@@ -61,7 +61,8 @@ function sampleFlowJson(f: SampleFlow): string {
 /** A finite JSON number, optionally rounded to `decimals` places. */
 function num(x: number, decimals?: number): string {
   let v = Number.isNaN(x) ? 0 : Math.max(-MAX_JSON_NUMBER, Math.min(MAX_JSON_NUMBER, x));
-  if (decimals !== undefined) v = Math.round(v * 10 ** decimals) / 10 ** decimals;
+  // Past 1e11 a double holds fewer than 4 decimals anyway, and scaling up would cost exactness.
+  if (decimals !== undefined && Math.abs(v) < 1e11) v = Math.round(v * 10 ** decimals) / 10 ** decimals;
   return JSON.stringify(v); // JSON.stringify writes -0 as 0
 }
 
