@@ -1,0 +1,113 @@
+import { u16 } from './bytes.js';
+import { IpLayer } from './ip.js';
+import { DecodeStats, R } from './stats.js';
+import { PacketView } from './view.js';
+
+/** VLAN tags followed per frame at most (METHODS.md 2.1: cap the depth). */
+export const MAX_VLAN_TAGS = 4;
+
+/**
+ * Decodes one packet at a time into a reused view, from the link layer (METHODS.md 1.3) to the
+ * transport header. Never throws on bad bytes: a skipped packet returns false and its reason is counted
+ * in `stats`. Allocates nothing per packet.
+ */
+export class Decoder {
+  readonly view = new PacketView();
+  readonly stats = new DecodeStats();
+  private readonly ip = new IpLayer(this.view, this.stats);
+  private tags = 0;
+
+  /** Decodes `capLen` bytes at `off` of `buf` captured on link type `linkType`; false when skipped. */
+  decode(buf: Uint8Array, off: number, capLen: number, linkType: number): boolean {
+    this.stats.packets++;
+    this.view.vlan = -1;
+    this.tags = 0;
+    const end = off + capLen > buf.length ? buf.length : off + capLen;
+    const ok = this.link(buf, off, end, linkType);
+    if (ok) this.stats.decoded++;
+    return ok;
+  }
+
+  private link(b: Uint8Array, p: number, end: number, linkType: number): boolean {
+    switch (linkType) {
+      case 1: // ETHERNET
+        if (p + 14 > end) return this.skip(R['truncated-ethernet']);
+        return this.typeOrLength(b, p + 14, end, u16(b, p + 12));
+      case 101: case 12: case 14: case 228: case 229: // RAW and its aliases; the version nibble decides
+        return this.raw(b, p, end);
+      case 113: // LINUX_SLL: protocol type at offset 14, 16-octet header
+        if (p + 16 > end) return this.skip(R['truncated-sll']);
+        return this.sllProtocol(b, p + 16, end, u16(b, p + 14));
+      case 276: // LINUX_SLL2: protocol type at offset 0, 20-octet header
+        if (p + 20 > end) return this.skip(R['truncated-sll2']);
+        return this.sllProtocol(b, p + 20, end, u16(b, p));
+      case 0: { // NULL: address family in the capturing host's byte order
+        if (p + 4 > end) return this.skip(R['truncated-null']);
+        let fam = (b[p]! | (b[p + 1]! << 8) | (b[p + 2]! << 16) | (b[p + 3]! << 24)) >>> 0;
+        if (fam > 0xffff) fam = ((fam >>> 24) | ((fam >>> 8) & 0xff00) | ((fam << 8) & 0xff0000) | (fam << 24)) >>> 0;
+        return this.addressFamily(b, p + 4, end, fam);
+      }
+      case 108: // LOOP: address family big-endian
+        if (p + 4 > end) return this.skip(R['truncated-null']);
+        return this.addressFamily(b, p + 4, end, ((b[p]! << 24) | (b[p + 1]! << 16) | (b[p + 2]! << 8) | b[p + 3]!) >>> 0);
+      default:
+        return this.skip(R['undecoded-linktype']);
+    }
+  }
+
+  private skip(reason: number): boolean {
+    this.stats.count(reason);
+    return false;
+  }
+
+  private raw(b: Uint8Array, p: number, end: number): boolean {
+    if (p >= end) return this.skip(R['truncated-ipv4']);
+    const ver = b[p]! >>> 4;
+    if (ver === 4) return this.ip.ipv4(b, p, end);
+    if (ver === 6) return this.ip.ipv6(b, p, end);
+    return this.skip(R['bad-ip-version']);
+  }
+
+  /** BSD AF_ values: 2 = IPv4; 24, 28, 30 = IPv6 on the BSDs and macOS (METHODS.md 1.3). */
+  private addressFamily(b: Uint8Array, p: number, end: number, fam: number): boolean {
+    if (fam === 2) return this.ip.ipv4(b, p, end);
+    if (fam === 24 || fam === 28 || fam === 30) return this.ip.ipv6(b, p, end);
+    return this.skip(R['null-unknown-family']);
+  }
+
+  /** SLL protocol type: an EtherType, or 4 for 802.2 LLC frames (Linux ETH_P_802_2). */
+  private sllProtocol(b: Uint8Array, p: number, end: number, proto: number): boolean {
+    if (proto >= 0x0600) return this.etherType(b, p, end, proto);
+    if (proto === 4) return this.llc(b, p, end);
+    return this.skip(R['non-ip']);
+  }
+
+  /** Ethernet Type/Length: <= 1500 is an 802.3 length, >= 1536 an EtherType (METHODS.md 2.1). */
+  private typeOrLength(b: Uint8Array, p: number, end: number, t: number): boolean {
+    if (t <= 1500) return this.llc(b, p, end);
+    if (t < 0x0600) return this.skip(R['bad-ethertype']);
+    return this.etherType(b, p, end, t);
+  }
+
+  /** 802.2 LLC; only SNAP (AA AA 03, OUI, EtherType) can carry IP here. */
+  private llc(b: Uint8Array, p: number, end: number): boolean {
+    if (p + 3 > end) return this.skip(R['truncated-llc']);
+    if (b[p] !== 0xaa || b[p + 1] !== 0xaa || b[p + 2] !== 0x03) return this.skip(R['llc-not-snap']);
+    if (p + 8 > end) return this.skip(R['truncated-llc']);
+    return this.etherType(b, p + 8, end, u16(b, p + 6));
+  }
+
+  private etherType(b: Uint8Array, p: number, end: number, t: number): boolean {
+    switch (t) {
+      case 0x0800: return this.ip.ipv4(b, p, end);
+      case 0x86dd: return this.ip.ipv6(b, p, end);
+      case 0x8100: case 0x88a8: case 0x9100: // 802.1Q C-tag, 802.1ad S-tag, pre-standard QinQ
+        if (++this.tags > MAX_VLAN_TAGS) return this.skip(R['vlan-too-deep']);
+        if (p + 4 > end) return this.skip(R['truncated-vlan']);
+        if (this.view.vlan < 0) this.view.vlan = u16(b, p) & 0x0fff;
+        return this.typeOrLength(b, p + 4, end, u16(b, p + 2));
+      case 0x0806: return this.skip(R['arp']);
+      default: return this.skip(R['non-ip']);
+    }
+  }
+}
