@@ -1,3 +1,4 @@
 // Side-effect module: each ingest path registers itself here. Capture path and flow-export paths
 // add their `registerIngestor(...)` imports below.
+import '../flowlog/register.js';
 export {};

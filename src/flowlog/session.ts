@@ -1,0 +1,240 @@
+import type { FlowSink } from '../flow/record.js';
+import { ProblemCounter, type InputProblem } from '../util/problem.js';
+import { AddressTexts } from './addr-cache.js';
+import { DecodePlan } from './plan.js';
+import { RecordScratch, decodeRecord } from './record-decode.js';
+import { toFlowRecord, type TimeContext } from './to-flow.js';
+
+/** Caps (ours, common practice, no source): bounded memory whatever an exporter sends. */
+export const LIMITS = {
+  templatesPerExporter: 4096,
+  templatesTotal: 65_536,
+  domainsPerExporter: 1024,
+  /** Data sets held per (session, domain) while their template has not arrived. */
+  pendingSets: 64,
+  pendingBytes: 1 << 20,
+} as const;
+
+/** Templates held across all sessions of one process (collector) or one input (file). */
+export class TemplateBudget {
+  used = 0;
+  constructor(readonly max: number = LIMITS.templatesTotal) {}
+}
+
+/** Counters one transport session (an exporter, a TCP connection or a file) keeps. */
+export class SessionCounters {
+  messages = 0;
+  /** Data records decoded (flow and options records). */
+  records = 0;
+  flows = 0;
+  optionsRecords = 0;
+  /** Data records without source or destination address (not flows). */
+  recordsWithoutAddress = 0;
+  templates = 0;
+  templatesRedefined = 0;
+  templatesWithdrawn = 0;
+  templatesOverCap = 0;
+  /** Data sets that waited for their template and were decoded when it came. */
+  setsDecodedLate = 0;
+  /** Data sets dropped because their template never came (or the wait buffer was full). */
+  unknownTemplateSets = 0;
+  /** Records lost by sequence numbers (IPFIX: data records; NetFlow v9: export packets). */
+  sequenceLost = 0;
+  sequenceResets = 0;
+  bytes = 0;
+  firstMs = NaN;
+  lastMs = NaN;
+  readonly problems = new ProblemCounter();
+
+  toObject(): Record<string, number> {
+    return {
+      messages: this.messages, records: this.records, flows: this.flows, optionsRecords: this.optionsRecords,
+      recordsWithoutAddress: this.recordsWithoutAddress, templates: this.templates,
+      templatesRedefined: this.templatesRedefined, templatesWithdrawn: this.templatesWithdrawn,
+      templatesOverCap: this.templatesOverCap, setsDecodedLate: this.setsDecodedLate,
+      unknownTemplateSets: this.unknownTemplateSets, sequenceLost: this.sequenceLost,
+      sequenceResets: this.sequenceResets,
+    };
+  }
+}
+
+interface PendingSet {
+  templateId: number;
+  /** Copy of the set's records (after the set header). */
+  body: Uint8Array;
+  inputOffset: number;
+  exportMs: number;
+  v9UptimeMs: number;
+}
+
+/** Template scope (RFC 7011 section 8): one Observation Domain (IPFIX) or Source ID (v9) of a session. */
+export class Domain {
+  readonly templates = new Map<number, DecodePlan>();
+  pending: PendingSet[] = [];
+  pendingBytes = 0;
+  /** Next expected sequence number; -1 when unknown (first message, or records we could not count). */
+  expectedSeq = -1;
+  sysInitMs = NaN;
+  constructor(readonly id: number, readonly exporter: string) {}
+}
+
+/** Why a template could not be installed, or 'ok'. */
+type Install = 'ok' | 'over-cap';
+
+/**
+ * What IPFIX and NetFlow v9 share: the template cache of one transport session, the wait buffer for
+ * data sets before their template, record decoding and problem reporting. The format modules parse
+ * headers and template records and call in here.
+ */
+export class ExportSession {
+  readonly counters = new SessionCounters();
+  private readonly domains = new Map<number, Domain>();
+  private templateCount = 0;
+  private readonly scratch = new RecordScratch();
+  private readonly texts = new AddressTexts();
+  private readonly ctx: TimeContext = { exportMs: 0, v9UptimeMs: -1, sysInitMs: NaN };
+
+  /**
+   * @param file    input name for problems (`-` for stdin, `ADDR:PORT` on the network)
+   * @param label   exporter label before `/ODID` (file base name, or `ADDR:PORT`)
+   */
+  constructor(
+    readonly file: string,
+    readonly label: string,
+    private readonly sink: FlowSink,
+    private readonly budget: TemplateBudget,
+    private readonly onProblem?: (p: InputProblem) => void,
+  ) {}
+
+  /** Counts `n` problems of one reason and reports them once. */
+  problem(reason: string, offset: number, message: string, fatal = false, n = 1): void {
+    this.counters.problems.add(reason, n);
+    this.onProblem?.({ file: this.file, offset, reason, message, fatal });
+  }
+
+  /** The domain for `id`, created on first use; null (and reported) past the per-exporter cap. */
+  domain(id: number, offset: number): Domain | null {
+    let d = this.domains.get(id);
+    if (d) return d;
+    if (this.domains.size >= LIMITS.domainsPerExporter) {
+      this.problem('domain-cap', offset, `more than ${LIMITS.domainsPerExporter} observation domains from one exporter; domain ${id} ignored`);
+      return null;
+    }
+    d = new Domain(id, `${this.label}/${id}`);
+    this.domains.set(id, d);
+    return d;
+  }
+
+  /** Installs or redefines a template, then decodes data sets that were waiting for it. */
+  install(d: Domain, plan: DecodePlan): Install {
+    const old = d.templates.get(plan.templateId);
+    if (old) {
+      if (!old.sameDefinition(plan.definition)) this.counters.templatesRedefined++;
+      d.templates.set(plan.templateId, plan);
+    } else {
+      if (this.templateCount >= LIMITS.templatesPerExporter || this.budget.used >= this.budget.max) {
+        this.counters.templatesOverCap++;
+        return 'over-cap';
+      }
+      d.templates.set(plan.templateId, plan);
+      this.templateCount++;
+      this.budget.used++;
+      this.counters.templates++;
+    }
+    if (d.pending.length > 0) this.drainPending(d, plan);
+    return 'ok';
+  }
+
+  /** Withdraws one template (RFC 7011 section 8.1); false when it was not known. */
+  withdraw(d: Domain, templateId: number): boolean {
+    if (!d.templates.delete(templateId)) return false;
+    this.templateCount--;
+    this.budget.used--;
+    this.counters.templatesWithdrawn++;
+    return true;
+  }
+
+  /** Withdraws every template (options === false) or options template (true) of a domain. */
+  withdrawAll(d: Domain, options: boolean): void {
+    for (const [id, p] of d.templates) if (p.isOptions === options) this.withdraw(d, id);
+  }
+
+  /**
+   * Decodes the records of one data set (`off`..`end`, after the set header). Returns the number of
+   * data records decoded; stops at a record that overruns the set and reports it.
+   */
+  decodeSet(d: Domain, plan: DecodePlan, b: Uint8Array, off: number, end: number, exportMs: number, v9UptimeMs: number, inputOff: number): number {
+    const s = this.scratch, ctx = this.ctx, c = this.counters;
+    ctx.exportMs = exportMs;
+    ctx.v9UptimeMs = v9UptimeMs;
+    ctx.sysInitMs = d.sysInitMs;
+    const min = plan.minLen;
+    let p = off, n = 0;
+    while (p + min <= end) {
+      const next = decodeRecord(plan, b, p, end, s);
+      if (next < 0) {
+        this.problem('field-overrun', inputOff + (p - off), `a variable-length field of template ${plan.templateId} runs past its set; rest of the set skipped`);
+        break;
+      }
+      p = next;
+      n++;
+      if (plan.isOptions) {
+        c.optionsRecords++;
+        if (s.sysInitMs === s.sysInitMs) ctx.sysInitMs = d.sysInitMs = s.sysInitMs;
+        continue;
+      }
+      const rec = toFlowRecord(s, plan, ctx, b, this.texts, d.exporter);
+      if (rec === null) { c.recordsWithoutAddress++; continue; }
+      c.flows++;
+      c.bytes += rec.bytes + rec.rbytes;
+      if (!(rec.start >= c.firstMs)) c.firstMs = rec.start;
+      if (!(rec.end <= c.lastMs)) c.lastMs = rec.end;
+      this.sink(rec);
+    }
+    c.records += n;
+    return n;
+  }
+
+  /** Keeps a data set whose template has not arrived yet (bounded); false when it was dropped. */
+  hold(d: Domain, templateId: number, b: Uint8Array, off: number, end: number, exportMs: number, v9UptimeMs: number, inputOff: number): boolean {
+    const len = end - off;
+    if (d.pending.length >= LIMITS.pendingSets || d.pendingBytes + len > LIMITS.pendingBytes) {
+      this.counters.unknownTemplateSets++;
+      this.problem('unknown-template', inputOff, `data set for unknown template ${templateId} dropped (wait buffer full)`);
+      return false;
+    }
+    d.pending.push({ templateId, body: b.slice(off, end), inputOffset: inputOff, exportMs, v9UptimeMs });
+    d.pendingBytes += len;
+    return true;
+  }
+
+  private drainPending(d: Domain, plan: DecodePlan): void {
+    const keep: PendingSet[] = [];
+    for (const ps of d.pending) {
+      if (ps.templateId !== plan.templateId) { keep.push(ps); continue; }
+      d.pendingBytes -= ps.body.length;
+      this.counters.setsDecodedLate++;
+      this.decodeSet(d, plan, ps.body, 0, ps.body.length, ps.exportMs, ps.v9UptimeMs, ps.inputOffset);
+    }
+    d.pending = keep;
+  }
+
+  /** End of the session: data sets still waiting for a template are dropped and reported. */
+  finish(): void {
+    for (const d of this.domains.values()) {
+      for (const ps of d.pending) {
+        this.counters.unknownTemplateSets++;
+        this.problem('unknown-template', ps.inputOffset, `data set for template ${ps.templateId} of domain ${d.id} never got its template; dropped`);
+      }
+      d.pending = [];
+      d.pendingBytes = 0;
+    }
+  }
+
+  /** Releases this session's templates from the shared budget (a closed TCP connection). */
+  release(): void {
+    this.budget.used -= this.templateCount;
+    this.templateCount = 0;
+    this.domains.clear();
+  }
+}
