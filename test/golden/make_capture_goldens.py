@@ -11,6 +11,9 @@ DIR defaults to test/golden/captures beside this script. For every golden it wri
   DIR/<name>.flows.json       the expected flows, computed by READING THE FILE BACK with dpkt
                               (pcap reader, link layers, IP, IPv6, TCP, UDP, ICMP dissection) and
                               aggregating with the small flow table below.
+Two cross-checks with scapy run on every generation: per pcap file, the packets and IP-layer octets
+summed over the expected flows must equal scapy's own read-back; for the pcapng file, this script's
+block walk must yield the same (timestamp, frame) list as scapy's PcapNgReader.
 The flow table implements the conventions written in src/flow/record.ts; it is written from those
 conventions, not from the TypeScript. Output is deterministic: fixed timestamps, fixed IP ids and
 sequence numbers, no randomness, so a re-run reproduces every file byte for byte.
@@ -21,6 +24,7 @@ each flow is exactly one record under the default --window 60.
 import argparse
 import ipaddress
 import json
+import logging
 import os
 import struct
 from decimal import Decimal
@@ -32,7 +36,9 @@ from scapy.layers.inet6 import (ICMPv6DestUnreach, ICMPv6EchoReply, ICMPv6EchoRe
                                 IPv6ExtHdrRouting)
 from scapy.layers.l2 import CookedLinux, CookedLinuxV2, Dot1AD, Dot1Q, Ether, Loopback
 from scapy.packet import Raw
-from scapy.utils import RawPcapWriter
+from scapy.utils import PcapNgReader, RawPcapWriter, rdpcap
+
+logging.getLogger('scapy.runtime').setLevel(logging.ERROR)  # quiet "unknown LL type 108" on read-back
 
 T0 = 1700000040  # 28333334 * 60: a window boundary
 MAC_A = '02:00:00:00:00:0a'
@@ -53,7 +59,7 @@ def ethertype(ip_pkt):
 
 
 def frame(linktype, ip_pkt, outbound=False, af6=24):
-    """One link-layer frame carrying ip_pkt. outbound only matters for the SLL packet type."""
+    """One link-layer frame carrying ip_pkt; outbound swaps the MACs / sets the SLL packet type to 4."""
     af = af6 if isinstance(ip_pkt, IPv6) else AF_INET
     if linktype == LT_ETHERNET:
         src, dst = (MAC_A, MAC_B) if not outbound else (MAC_B, MAC_A)
@@ -77,9 +83,8 @@ def frame(linktype, ip_pkt, outbound=False, af6=24):
     raise ValueError(linktype)
 
 
-def tcp(src, dst, sport, dport, flags, seq, ack=0, payload=b'', ipv6=False):
-    ip_layer = IPv6(src=src, dst=dst) if ipv6 else IP(src=src, dst=dst, id=seq & 0xFFFF)
-    pkt = ip_layer / TCP(sport=sport, dport=dport, flags=flags, seq=seq, ack=ack, window=64240)
+def tcp(src, dst, sport, dport, flags, seq, ack=0, payload=b''):
+    pkt = IP(src=src, dst=dst, id=seq & 0xFFFF) / TCP(sport=sport, dport=dport, flags=flags, seq=seq, ack=ack, window=64240)
     return pkt / Raw(payload) if payload else pkt
 
 
@@ -104,7 +109,7 @@ def udp_exchange(linktype, client, server, sport, dport, ipv6=False, t=0, af6=24
     ]
 
 
-def tcp_session(linktype, client, server, sport, dport, t=0, ipv6=False):
+def tcp_session(linktype, client, server, sport, dport, t=0):
     """Full handshake, one request, one response, FIN both ways, last ACK."""
     c, s = 1000, 5000
     req, resp = b'hello from client\n' * 3, b'greetings from server\n' * 10
@@ -122,7 +127,7 @@ def tcp_session(linktype, client, server, sport, dport, t=0, ipv6=False):
     ]
     out = []
     for i, (a, b, sp, dp, fl, seq, ack, data) in enumerate(pkts):
-        out.append((t + i * 2000, frame(linktype, tcp(a, b, sp, dp, fl, seq, ack, data, ipv6),
+        out.append((t + i * 2000, frame(linktype, tcp(a, b, sp, dp, fl, seq, ack, data),
                                         outbound=a == server)))
     return out
 
@@ -628,6 +633,31 @@ GOLDENS = [
 ]
 
 
+def scapy_totals(path):
+    """Second opinion on the dissection: packets and IP-layer octets as scapy reads the same file.
+    Only for pcap files (scapy leaves a mixed-link-type pcapng undissected)."""
+    pkts = octets = 0
+    with open(path, 'rb') as f:
+        header = f.read(24)
+    linktype = struct.unpack('<I' if header[:4] in (b'\xd4\xc3\xb2\xa1', b'\x4d\x3c\xb2\xa1') else '>I',
+                             header[20:24])[0] & 0xFFFF
+    for p in rdpcap(path):
+        if linktype in (LT_NULL, LT_LOOP):
+            # scapy binds IPv6 only to this machine's AF_INET6 (10 on Linux) and reads LOOP (108) as
+            # raw bytes, so take the family from the first 4 octets here and let scapy parse the rest.
+            raw = bytes(p)
+            family = struct.unpack('<I' if linktype == LT_NULL else '>I', raw[:4])[0]
+            p = (IP if family == AF_INET else IPv6)(raw[4:])
+        if IP in p:
+            octets += p[IP].len
+        elif IPv6 in p:
+            octets += p[IPv6].plen + 40
+        else:
+            continue
+        pkts += 1
+    return pkts, octets
+
+
 def main():
     here = os.path.dirname(os.path.abspath(__file__))
     ap = argparse.ArgumentParser(description=__doc__.split('\n')[0])
@@ -639,6 +669,12 @@ def main():
         write(path)
         packets = read_pcapng(path) if name.endswith('.pcapng') else read_pcap(path)
         flows = expected_flows(packets, exporter=name)
+        if name.endswith('.pcap'):
+            ours = (sum(f['pkts'] + f['rpkts'] for f in flows), sum(f['bytes'] + f['rbytes'] for f in flows))
+            assert ours == scapy_totals(path), (name, ours, scapy_totals(path))
+        else:  # our pcapng walk must see the same timestamps and frames as scapy's pcapng reader
+            assert [(ts, buf) for ts, _, buf in read_pcapng(path)] == \
+                [(Decimal(p.time), bytes(p)) for p in PcapNgReader(path)], name
         head = {
             'capture': name,
             'format': fmt,
