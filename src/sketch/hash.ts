@@ -44,16 +44,15 @@ export function murmur3_32(bytes: Uint8Array, seed = 0): number {
     const k = bytes[i]! | (bytes[i + 1]! << 8) | (bytes[i + 2]! << 16) | (bytes[i + 3]! << 24);
     h = mixBlock(h, k);
   }
-  let k = 0;
-  switch (len & 3) {
-    case 3: k ^= bytes[blocks + 2]! << 16; // falls through
-    case 2: k ^= bytes[blocks + 1]! << 8; // falls through
-    case 1:
-      k ^= bytes[blocks]!;
-      k = Math.imul(k, C1);
-      k = (k << 15) | (k >>> 17);
-      k = Math.imul(k, C2);
-      h ^= k;
+  const tail = len & 3;
+  if (tail > 0) {
+    let k = bytes[blocks]!;
+    if (tail > 1) k ^= bytes[blocks + 1]! << 8;
+    if (tail > 2) k ^= bytes[blocks + 2]! << 16;
+    k = Math.imul(k, C1);
+    k = (k << 15) | (k >>> 17);
+    k = Math.imul(k, C2);
+    h ^= k;
   }
   return fmix32(h ^ len);
 }

@@ -1,0 +1,152 @@
+/**
+ * Shannon entropy of a weighted histogram over unsigned 32-bit keys (ports, interned address ids),
+ * kept exactly in an open-addressing table of typed arrays.
+ *
+ * Streaming form (METHODS.md 5): H = log2 S - (1/S) * sum n_i log2 n_i, so S and sum n_i log2 n_i are
+ * updated on every `add` and `entropy()` is O(1). Normalised entropy H / log2(distinct), 0 when
+ * distinct <= 1 (normalisation as in Berezinski, Jasiul, Szpyrka, Entropy 17(4), 2015; the <= 1 rule is
+ * our convention).
+ *
+ * Bound: at most `maxDistinct` keys (default 4096) are stored. Once full, every `add` of a key that is
+ * not stored goes to an overflow and is counted as its own new key with count n (as if overflow traffic
+ * were fully spread). Then `saturated` is true, `distinct` is an upper bound and `entropy()` is an
+ * estimate that leans high. The table grows from 16 slots with the number of keys and is kept (and
+ * cleared in O(distinct)) by `reset()`, so a counter reused window after window stops allocating.
+ */
+import { fmix32 } from './hash.js';
+
+const INITIAL_SLOTS = 16;
+
+export class EntropyCounter {
+  readonly maxDistinct: number;
+  private keys: Uint32Array;
+  private counts: Float64Array;
+  /** Slots in use, in insertion order: lets reset() clear only what was written. */
+  private used: Uint32Array;
+  private stored = 0;
+  private overflowKeys = 0;
+  private sum = 0;
+  private sumNLogN = 0;
+
+  constructor(maxDistinct = 4096) {
+    if (!Number.isInteger(maxDistinct) || maxDistinct < 1) throw new RangeError('maxDistinct must be a positive integer');
+    this.maxDistinct = maxDistinct;
+    const slots = Math.min(INITIAL_SLOTS, slotsFor(maxDistinct));
+    this.keys = new Uint32Array(slots);
+    this.counts = new Float64Array(slots);
+    this.used = new Uint32Array(slots >>> 1);
+  }
+
+  /** Adds weight n (> 0; ignored otherwise) to key (coerced to unsigned 32-bit). */
+  add(key: number, n = 1): void {
+    if (!(n > 0)) return;
+    key >>>= 0;
+    const counts = this.counts;
+    const keys = this.keys;
+    const mask = keys.length - 1;
+    let slot = fmix32(key) & mask;
+    while (counts[slot] !== 0) {
+      if (keys[slot] === key) {
+        const c = counts[slot]!;
+        const next = c + n;
+        this.sumNLogN += next * Math.log2(next) - c * Math.log2(c);
+        counts[slot] = next;
+        this.sum += n;
+        return;
+      }
+      slot = (slot + 1) & mask;
+    }
+    this.sum += n;
+    this.sumNLogN += n * Math.log2(n);
+    if (this.stored === this.maxDistinct) {
+      this.overflowKeys++;
+      return;
+    }
+    keys[slot] = key;
+    counts[slot] = n;
+    this.used[this.stored++] = slot;
+    if (2 * this.stored >= keys.length && keys.length < slotsFor(this.maxDistinct)) this.grow();
+  }
+
+  /** Entropy in bits; 0 for an empty histogram. */
+  entropy(): number {
+    if (this.sum <= 0) return 0;
+    const h = Math.log2(this.sum) - this.sumNLogN / this.sum;
+    return h > 0 ? h : 0; // rounding can leave a tiny negative for a single key
+  }
+
+  /** H / log2(distinct); 0 when distinct <= 1. */
+  normalised(): number {
+    const d = this.distinct;
+    if (d <= 1) return 0;
+    return Math.min(1, this.entropy() / Math.log2(d));
+  }
+
+  /** Distinct keys seen (an upper bound when saturated). */
+  get distinct(): number {
+    return this.stored + this.overflowKeys;
+  }
+
+  /** Sum of all weights added. */
+  get total(): number {
+    return this.sum;
+  }
+
+  /** True once keys went to the overflow: `distinct` and `entropy()` are then estimates. */
+  get saturated(): boolean {
+    return this.overflowKeys > 0;
+  }
+
+  /** Count stored for key (0 if absent or in the overflow). */
+  countOf(key: number): number {
+    key >>>= 0;
+    const mask = this.keys.length - 1;
+    let slot = fmix32(key) & mask;
+    while (this.counts[slot] !== 0) {
+      if (this.keys[slot] === key) return this.counts[slot]!;
+      slot = (slot + 1) & mask;
+    }
+    return 0;
+  }
+
+  /** Empties the histogram in O(distinct), keeping the table for reuse. */
+  reset(): void {
+    for (let i = 0; i < this.stored; i++) this.counts[this.used[i]!] = 0;
+    this.stored = 0;
+    this.overflowKeys = 0;
+    this.sum = 0;
+    this.sumNLogN = 0;
+  }
+
+  /** Typed-array bytes held. */
+  memoryBytes(): number {
+    return this.keys.byteLength + this.counts.byteLength + this.used.byteLength;
+  }
+
+  private grow(): void {
+    const oldKeys = this.keys;
+    const oldCounts = this.counts;
+    const slots = oldKeys.length * 2;
+    const mask = slots - 1;
+    this.keys = new Uint32Array(slots);
+    this.counts = new Float64Array(slots);
+    const used = new Uint32Array(slots >>> 1);
+    for (let i = 0; i < this.stored; i++) {
+      const from = this.used[i]!;
+      const key = oldKeys[from]!;
+      let slot = fmix32(key) & mask;
+      while (this.counts[slot] !== 0) slot = (slot + 1) & mask;
+      this.keys[slot] = key;
+      this.counts[slot] = oldCounts[from]!;
+      used[i] = slot;
+    }
+    this.used = used;
+  }
+}
+
+/** Table size for n keys at load <= 1/2: the power of two >= 2n. */
+function slotsFor(n: number): number {
+  let s = 2;
+  while (s < 2 * n) s *= 2;
+  return s;
+}
