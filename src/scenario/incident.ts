@@ -1,0 +1,67 @@
+import { PcapWriter } from '../capture/writer.js';
+import { addBackground, buildWorld } from './background.js';
+import { addEpisode } from './episodes.js';
+import { HOUR, INSIDE_CIDRS, SCENARIO_NAME } from './larkspur.js';
+import { Prng } from './prng.js';
+import { INCIDENT_EPISODES, planEpisodes, type IncidentEpisode } from './schedule.js';
+import { Sim } from './sim.js';
+import { writeTruth, type Truth } from './truth.js';
+
+/** A Tuesday, 09:00 UTC: the capture opens at the start of clinic hours. */
+export const INCIDENT_START = Date.UTC(2026, 2, 10, 9, 0, 0);
+
+export interface IncidentOptions {
+  seed: number;
+  dataFile: string;
+  truthFile: string;
+  hours?: number;
+  scale?: number;
+  snaplen?: number;
+  linkType?: 1 | 101;
+  episodes?: readonly IncidentEpisode[];
+}
+
+export interface IncidentResult {
+  packets: number;
+  fileBytes: number;
+  truth: Truth;
+}
+
+/** Writes the incident capture and its truth: benign background with the attacks of docs/scenario.md. */
+export function generateIncident(o: IncidentOptions): IncidentResult {
+  const hours = o.hours ?? 6;
+  const scale = o.scale ?? 1;
+  const startMs = INCIDENT_START;
+  const endMs = startMs + Math.round(hours * HOUR);
+  const writer = new PcapWriter(o.dataFile, { snaplen: o.snaplen ?? 96, linkType: o.linkType ?? 1 });
+  const rng = new Prng(o.seed);
+  const world = buildWorld((n) => new Sim(writer, rng, startMs * 1000, endMs * 1000, n, o.linkType ?? 1), rng, o.seed, scale);
+  const sim = world.sim;
+  addBackground(world);
+  const planned = planEpisodes(startMs, hours, o.episodes ?? INCIDENT_EPISODES);
+  const added = planned.map((slot, i) => addEpisode(world, slot, i + 1));
+  try {
+    sim.run();
+  } finally {
+    writer.close();
+  }
+  for (const a of added) a.settle?.();
+
+  let hostHours = 0;
+  for (const v of sim.benignHours) hostHours += v;
+  const truth: Truth = {
+    scenario: SCENARIO_NAME,
+    kind: 'incident',
+    seed: o.seed,
+    start: new Date(startMs).toISOString(),
+    end: new Date(endMs).toISOString(),
+    window_s: 60,
+    inside: INSIDE_CIDRS,
+    hosts: world.addresses.filter((_, i) => sim.active[i] !== 0),
+    benign_host_hours: hostHours,
+    episodes: added.map((a) => a.truth),
+    benign: world.benign.sort((a, b) => a.start.localeCompare(b.start)),
+  };
+  writeTruth(o.truthFile, truth);
+  return { packets: writer.packets, fileBytes: writer.fileBytes, truth };
+}
