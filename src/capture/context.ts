@@ -44,7 +44,11 @@ export class ReaderContext {
   problem(reason: string, offset: number, message: string, fatal: boolean): void {
     const s = this.summary;
     s.problemCounts[reason] = (s.problemCounts[reason] ?? 0) + 1;
-    if (fatal) s.stopped = true;
+    if (fatal) {
+      // Reading ends where the bad unit starts, whatever the chunking was.
+      s.stopped = true;
+      s.inputBytes = offset;
+    }
     const keep = s.problems.length < MAX_KEPT_PROBLEMS;
     if (!keep && !this.onProblem) return;
     const p: InputProblem = { file: s.file, offset, reason, message, fatal };

@@ -31,7 +31,7 @@ export interface CaptureSummary {
   packets: number;
   /** Sum of captured lengths. */
   capturedBytes: number;
-  /** Bytes of input consumed. */
+  /** Bytes of input consumed (after a fatal problem: up to the unit that stopped reading). */
   inputBytes: number;
   /** Problems met, in order (bounded: the first 100 are kept, all are counted in `problemCounts`). */
   problems: InputProblem[];
