@@ -1,0 +1,62 @@
+import type { Outcome } from './record.js';
+
+/**
+ * Per-flow state bits, kept in one typed array. The outcome is derived from them when an update is cut
+ * (record.ts conventions; METHODS.md 2.4).
+ */
+export const enum St {
+  /** The first packet has been counted (OpenedWithSyn is decided). */
+  FirstSeen = 1,
+  /** TCP: the first packet was a SYN without ACK from the initiator. */
+  OpenedWithSyn = 2,
+  /** TCP: a SYN-ACK came back from the responder. */
+  SynAckBack = 4,
+  /** TCP: the initiator sent an ACK after the SYN-ACK: the handshake completed. */
+  Completed = 8,
+  /** TCP: the responder sent RST before any SYN-ACK. */
+  ResetBack = 16,
+  /** An ICMP destination unreachable quoted this flow. */
+  IcmpRejected = 32,
+  FinForward = 64,
+  FinReverse = 128,
+  /** TCP ended (RST, or FIN both ways): the flow is removed after a short linger. */
+  Closing = 256,
+  /** The responder has sent at least one packet. */
+  ReverseSeen = 512,
+}
+
+const FIN = 0x01, SYN = 0x02, RST = 0x04, ACK = 0x10;
+
+/** TCP handshake and teardown tracking for one packet; returns the new state. `dir` 0 = from the initiator. */
+export function tcpStep(state: number, dir: number, flags: number): number {
+  if ((state & St.FirstSeen) === 0) {
+    state |= St.FirstSeen;
+    if (dir === 0 && (flags & (SYN | ACK)) === SYN) state |= St.OpenedWithSyn;
+  }
+  if (dir === 1 && (flags & (SYN | ACK)) === (SYN | ACK)) state |= St.SynAckBack;
+  else if (dir === 1 && (flags & RST) !== 0 && (state & St.SynAckBack) === 0) state |= St.ResetBack;
+  else if (dir === 0 && (state & St.SynAckBack) !== 0 && (flags & ACK) !== 0) state |= St.Completed;
+  if ((flags & FIN) !== 0) state |= dir === 0 ? St.FinForward : St.FinReverse;
+  return state;
+}
+
+/** The TCP flow has ended and should linger then go (RST either way, or FIN both ways). */
+export function tcpEnded(state: number, flags: number): boolean {
+  return (flags & RST) !== 0 || (state & (St.FinForward | St.FinReverse)) === (St.FinForward | St.FinReverse);
+}
+
+export function outcomeOf(proto: number, state: number): Outcome {
+  if (proto === 1 || proto === 58) return 'n/a';
+  if (proto === 6) {
+    // an established connection stays established in later updates, whatever comes after
+    if ((state & (St.OpenedWithSyn | St.Completed)) === (St.OpenedWithSyn | St.Completed)) return 'established';
+    if ((state & St.IcmpRejected) !== 0) return 'rejected';
+    if ((state & St.OpenedWithSyn) === 0) return 'partial';
+    if ((state & St.ResetBack) !== 0) return 'rejected';
+    if ((state & (St.SynAckBack | St.ReverseSeen)) !== 0) return 'partial';
+    return 'unanswered';
+  }
+  if ((state & St.ReverseSeen) !== 0) return 'established';
+  if ((state & St.IcmpRejected) !== 0) return 'rejected';
+  return 'unanswered';
+}
