@@ -23,8 +23,8 @@ export function alertToJson(a: Alert): string {
   for (const k of ALERT_KEYS) {
     let v: string;
     switch (k) {
-      case 'observed': case 'expected': case 'low': case 'high': v = num(a[k], 4); break;
-      case 'score': v = num(a[k], 2); break;
+      case 'observed': case 'expected': case 'low': case 'high': v = jsonNumber(a[k], 4); break;
+      case 'score': v = jsonNumber(a[k], 2); break;
       case 'evidence': v = evidenceJson(a.evidence); break;
       default: v = str(a[k]);
     }
@@ -35,17 +35,17 @@ export function alertToJson(a: Alert): string {
 
 function evidenceJson(e: Evidence): string {
   const parts = [
-    `"top_peers":[${e.top_peers.map((p) => `{"peer":${str(p.peer)},"count":${num(p.count)}}`).join(',')}]`,
-    `"top_ports":[${e.top_ports.map((p) => `{"port":${num(p.port)},"count":${num(p.count)}}`).join(',')}]`,
+    `"top_peers":[${e.top_peers.map((p) => `{"peer":${str(p.peer)},"count":${jsonNumber(p.count)}}`).join(',')}]`,
+    `"top_ports":[${e.top_ports.map((p) => `{"port":${jsonNumber(p.port)},"count":${jsonNumber(p.count)}}`).join(',')}]`,
     `"sample_flows":[${e.sample_flows.map(sampleFlowJson).join(',')}]`,
-    `"flows":${num(e.flows)}`,
-    `"packets":${num(e.packets)}`,
-    `"bytes":${num(e.bytes)}`,
+    `"flows":${jsonNumber(e.flows)}`,
+    `"packets":${jsonNumber(e.packets)}`,
+    `"bytes":${jsonNumber(e.bytes)}`,
   ];
   const base: ReadonlySet<string> = new Set(EVIDENCE_BASE);
   for (const k of Object.keys(e).filter((k) => !base.has(k)).sort()) {
     const v = e[k];
-    if (typeof v === 'number') parts.push(`${str(k)}:${num(v, 4)}`);
+    if (typeof v === 'number') parts.push(`${str(k)}:${jsonNumber(v, 4)}`);
     else if (typeof v === 'string') parts.push(`${str(k)}:${str(v)}`);
   }
   return `{${parts.join(',')}}`;
@@ -54,12 +54,12 @@ function evidenceJson(e: Evidence): string {
 function sampleFlowJson(f: SampleFlow): string {
   return `{${SAMPLE_FLOW_KEYS.map((k) => {
     const v = f[k];
-    return `"${k}":${typeof v === 'number' ? num(v) : str(v)}`;
+    return `"${k}":${typeof v === 'number' ? jsonNumber(v) : str(v)}`;
   }).join(',')}}`;
 }
 
-/** A finite JSON number, optionally rounded to `decimals` places. */
-function num(x: number, decimals?: number): string {
+/** A finite JSON number, optionally rounded to `decimals` places (the rules above). */
+export function jsonNumber(x: number, decimals?: number): string {
   let v = Number.isNaN(x) ? 0 : Math.max(-MAX_JSON_NUMBER, Math.min(MAX_JSON_NUMBER, x));
   // Past 1e11 a double holds fewer than 4 decimals anyway, and scaling up would cost exactness.
   if (decimals !== undefined && Math.abs(v) < 1e11) v = Math.round(v * 10 ** decimals) / 10 ** decimals;
