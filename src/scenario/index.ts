@@ -1,0 +1,34 @@
+import { mkdirSync } from 'node:fs';
+import { join } from 'node:path';
+import { generateIncident } from './incident.js';
+import { generateRhythm } from './rhythm.js';
+
+export { writeFlowLog, flowRecordLine } from './flowlog.js';
+export type { Truth, TruthEpisode, TruthBenign, Family } from './truth.js';
+
+export interface ScenarioOptions {
+  kind: 'incident' | 'rhythm';
+  seed: number;
+  outDir: string;
+  /** Span in hours: incident default 6, rhythm default 192 (8 days). */
+  hours?: number;
+  /** Multiplies every benign rate (and the flood and upload volumes); default 1. */
+  scale?: number;
+  /** Base name of the files: NAME.pcap / NAME.jsonl and NAME.truth.json; default `incident` / `rhythm` with `truth.json`. */
+  name?: string;
+}
+
+/**
+ * Generates a Larkspur scenario deterministically from the seed (same options, same bytes):
+ * `incident` is a pcap with attacks, `rhythm` an eight-day flow log; each with its truth JSON.
+ */
+export async function generateScenario(opts: ScenarioOptions): Promise<{ dataFile: string; truthFile: string }> {
+  mkdirSync(opts.outDir, { recursive: true });
+  const ext = opts.kind === 'incident' ? 'pcap' : 'jsonl';
+  const dataFile = join(opts.outDir, `${opts.name ?? opts.kind}.${ext}`);
+  const truthFile = join(opts.outDir, opts.name ? `${opts.name}.truth.json` : 'truth.json');
+  const common = { seed: opts.seed, dataFile, truthFile, hours: opts.hours, scale: opts.scale };
+  if (opts.kind === 'incident') generateIncident(common);
+  else generateRhythm(common);
+  return { dataFile, truthFile };
+}
