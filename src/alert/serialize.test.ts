@@ -48,6 +48,12 @@ describe('alertToJson', () => {
     expect(line).not.toMatch(/NaN|Infinity|-0[,}]/);
   });
 
+  it('writes counts as non-negative integers', () => {
+    const e = alert().evidence;
+    const p = JSON.parse(alertToJson(alert({ evidence: { ...e, flows: 4.6, bytes: -3, packets: NaN, top_peers: [{ peer: 'x', count: 2.2 }] } }))) as Alert;
+    expect([p.evidence.flows, p.evidence.bytes, p.evidence.packets, p.evidence.top_peers[0]!.count]).toEqual([5, 0, 0, 2]);
+  });
+
   it('escapes U+2028/U+2029 and quotes in strings (METHODS 8.2)', () => {
     const line = alertToJson(alert({ sensor: 'a\u2028b\u2029"c' }));
     expect(line).toContain('"sensor":"a\\u2028b\\u2029\\"c"');

@@ -15,8 +15,8 @@ const SAMPLE_FLOW_KEYS = [
 /**
  * One alert as one JSON line (without the newline): keys in ALERT_KEYS order, evidence keys in a fixed
  * order (base keys, then extras sorted by name), observed/expected/low/high rounded to 4 decimals,
- * score to 2, every number finite. Evidence extras that are neither numbers nor strings are left out
- * (the schema allows only those). U+2028 and U+2029 are escaped for consumers that split on them.
+ * score to 2, counts as non-negative integers, every number finite. Evidence extras that are neither
+ * numbers nor strings are left out (the schema allows only those). U+2028 and U+2029 are escaped for consumers that split on them.
  */
 export function alertToJson(a: Alert): string {
   const parts: string[] = [];
@@ -35,12 +35,12 @@ export function alertToJson(a: Alert): string {
 
 function evidenceJson(e: Evidence): string {
   const parts = [
-    `"top_peers":[${e.top_peers.map((p) => `{"peer":${str(p.peer)},"count":${jsonNumber(p.count)}}`).join(',')}]`,
-    `"top_ports":[${e.top_ports.map((p) => `{"port":${jsonNumber(p.port)},"count":${jsonNumber(p.count)}}`).join(',')}]`,
+    `"top_peers":[${e.top_peers.map((p) => `{"peer":${str(p.peer)},"count":${count(p.count)}}`).join(',')}]`,
+    `"top_ports":[${e.top_ports.map((p) => `{"port":${count(p.port)},"count":${count(p.count)}}`).join(',')}]`,
     `"sample_flows":[${e.sample_flows.map(sampleFlowJson).join(',')}]`,
-    `"flows":${jsonNumber(e.flows)}`,
-    `"packets":${jsonNumber(e.packets)}`,
-    `"bytes":${jsonNumber(e.bytes)}`,
+    `"flows":${count(e.flows)}`,
+    `"packets":${count(e.packets)}`,
+    `"bytes":${count(e.bytes)}`,
   ];
   const base: ReadonlySet<string> = new Set(EVIDENCE_BASE);
   for (const k of Object.keys(e).filter((k) => !base.has(k)).sort()) {
@@ -54,8 +54,13 @@ function evidenceJson(e: Evidence): string {
 function sampleFlowJson(f: SampleFlow): string {
   return `{${SAMPLE_FLOW_KEYS.map((k) => {
     const v = f[k];
-    return `"${k}":${typeof v === 'number' ? jsonNumber(v) : str(v)}`;
+    return `"${k}":${typeof v === 'number' ? count(v) : str(v)}`;
   }).join(',')}}`;
+}
+
+/** Counts, ports and protocol numbers are non-negative integers on the wire. */
+function count(x: number): string {
+  return jsonNumber(Math.max(0, x), 0);
 }
 
 /** A finite JSON number, optionally rounded to `decimals` places (the rules above). */
