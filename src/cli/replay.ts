@@ -1,9 +1,44 @@
 import type { Command } from 'commander';
+import { Sensor } from '../sensor/sensor.js';
+import { AlertOutput } from './alert-output.js';
+import { addSensorOptions, defaultLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
+import { describeInputs, runInputs } from './run-inputs.js';
+import { EXIT_ALERTS, EXIT_INPUT, inputError } from './exit.js';
 
-/** `tidewatch replay`: not built yet. */
+interface ReplayRaw extends RawSensorOptions {
+  out?: string; format?: string; color?: boolean; failOnAlert?: boolean;
+}
+
+/** `tidewatch replay INPUT...`: the main job, captures or flow files in, the alert feed out. */
 export function register(program: Command): void {
-  program.command('replay').description('(replay: under construction)').action(() => {
-    process.stderr.write('tidewatch replay: not built yet\n');
-    process.exitCode = 2;
+  const cmd = program
+    .command('replay')
+    .description('replay captures or flow exports at full speed and write the alert feed (JSON lines)')
+    .argument('<input...>', 'pcap, pcapng, IPFIX, NetFlow v9, CSV or JSON-lines flow log (gzip ok); - for stdin')
+    .option('--out <file>', 'also append alerts (JSON lines) to FILE')
+    .option('--format <fmt>', 'jsonl or pretty (default: pretty on a terminal, jsonl otherwise)')
+    .option('--no-color', 'no colour in pretty output')
+    .option('--fail-on-alert', 'exit 1 when any alert was raised');
+  addSensorOptions(cmd).action(async (inputs: string[], raw: ReplayRaw) => {
+    const parsed = parseSensorOptions(raw);
+    const output = new AlertOutput({ format: raw.format, out: raw.out, color: raw.color });
+    const sensor = new Sensor({ ...parsed.sensor, mode: 'replay', latenessMs: parsed.latenessMs ?? 5_000 }, output.emit);
+    sensor.onWindowClosed = () => output.sync();
+    const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
+      windowMs: parsed.sensor.windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet,
+      onFormat: (f) => sensor.setLateness(parsed.latenessMs ?? defaultLateness(f)),
+    });
+    sensor.finish();
+    await output.close();
+    if (!parsed.quiet) {
+      for (const l of describeInputs(summaries)) process.stderr.write(`${l}\n`);
+      const st = sensor.aggregator.stats;
+      const kinds = [...output.counts.entries()].map(([k, n]) => `${k}=${n}`).join(', ');
+      process.stderr.write(`windows ${st.windowsClosed}, hosts ${sensor.aggregator.addresses.size}, late records ${st.late}; `
+        + `alerts ${output.total}${kinds ? ` (${kinds})` : ''}; suppressed by budget ${sensor.tracker.counters.suppressedByBudget}\n`);
+    }
+    if (unreadable.length === inputs.length) throw inputError(`no readable input (${unreadable.join(', ')})`);
+    if (unreadable.length > 0) process.exitCode = EXIT_INPUT;
+    else if (raw.failOnAlert && output.total > 0) process.exitCode = EXIT_ALERTS;
   });
 }

@@ -48,4 +48,9 @@ export interface Finding {
   score: number;
   evidence: Evidence;
   rule: string;
+  /**
+   * Internal, not part of the feed: false when an alpha-dependent gate of the detector failed, so the
+   * finding may continue an open episode but not open one (detect/thresholds.ts).
+   */
+  openable?: boolean;
 }

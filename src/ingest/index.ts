@@ -32,6 +32,7 @@ export async function ingestInput(name: string, sink: FlowSink, opts: IngestOpti
     await src.close();
     throw new Error(`${name}: ${format} input is not supported yet`);
   }
+  opts.onFormat?.(format);
   try {
     return await fn(src, sink, opts);
   } finally {

@@ -13,6 +13,8 @@ export interface IngestOptions {
   maxFlows: number;
   /** Overrides sniffing (`--input-format`). */
   inputFormat?: InputFormat;
+  /** Called once the input's format is known, before its first record. */
+  onFormat?: (format: InputFormat) => void;
   /** Called for every problem as it is met (the CLI prints them, bounded). */
   onProblem?: (p: InputProblem) => void;
 }

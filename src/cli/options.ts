@@ -1,0 +1,61 @@
+import { hostname } from 'node:os';
+import { Option, type Command } from 'commander';
+import { DEFAULT_INTERNAL, parseCidr } from '../util/addr.js';
+import { parseDuration } from '../util/time.js';
+import { INPUT_FORMATS, type InputFormat } from '../ingest/types.js';
+import { MAX_ALPHA } from '../detect/thresholds.js';
+import type { SensorOptions } from '../sensor/sensor.js';
+import { usageError } from './exit.js';
+
+/** Options shared by the commands that run the sensor (replay, train, watch, demo). */
+export function addSensorOptions(cmd: Command): Command {
+  return cmd
+    .option('--window <duration>', 'window length (e.g. 60s, 5m)', '60s')
+    .option('--alpha <p>', 'target false-alarm probability per host-window', '0.001')
+    .option('--max-alerts-per-hour <n>', 'keep at most this many episodes per hour (highest scores)')
+    .option('--internal <cidrs>', 'inside networks, comma-separated', DEFAULT_INTERNAL.join(','))
+    .option('--sensor <name>', 'sensor name carried in every alert', hostname())
+    .option('--lateness <duration>', 'allowed lateness (default 5s for captures, 120s for flow exports)')
+    .addOption(new Option('--input-format <fmt>', 'override format sniffing').choices([...INPUT_FORMATS]))
+    .option('--quiet', 'no progress or summary on stderr');
+}
+
+export interface RawSensorOptions {
+  window: string; alpha: string; maxAlertsPerHour?: string; internal: string; sensor: string;
+  lateness?: string; inputFormat?: InputFormat; quiet?: boolean;
+}
+
+export interface ParsedSensorOptions {
+  sensor: Omit<SensorOptions, 'mode' | 'latenessMs'>;
+  latenessMs: number | undefined;
+  inputFormat: InputFormat | undefined;
+  quiet: boolean;
+}
+
+export function parseSensorOptions(o: RawSensorOptions): ParsedSensorOptions {
+  const windowMs = parseDuration(o.window);
+  if (!(windowMs >= 1000) || windowMs % 1000 !== 0) throw usageError(`--window: expected whole seconds >= 1s, got ${o.window}`);
+  const alpha = Number(o.alpha);
+  if (!(alpha > 0 && alpha <= MAX_ALPHA)) throw usageError(`--alpha: expected a probability in (0, ${MAX_ALPHA}], got ${o.alpha}`);
+  let maxAlertsPerHour: number | undefined;
+  if (o.maxAlertsPerHour !== undefined) {
+    maxAlertsPerHour = Number(o.maxAlertsPerHour);
+    if (!Number.isInteger(maxAlertsPerHour) || maxAlertsPerHour < 1) throw usageError(`--max-alerts-per-hour: expected a positive integer, got ${o.maxAlertsPerHour}`);
+  }
+  const internal = o.internal.split(',').map((s) => s.trim()).filter(Boolean);
+  for (const c of internal) if (!parseCidr(c)) throw usageError(`--internal: not a CIDR: ${c}`);
+  let latenessMs: number | undefined;
+  if (o.lateness !== undefined) {
+    latenessMs = parseDuration(o.lateness);
+    if (!(latenessMs >= 0)) throw usageError(`--lateness: not a duration: ${o.lateness}`);
+  }
+  return {
+    sensor: { windowMs, alpha, internal, sensor: o.sensor, maxAlertsPerHour },
+    latenessMs, inputFormat: o.inputFormat, quiet: o.quiet === true,
+  };
+}
+
+/** Default allowed lateness by input kind (DESIGN: 5 s for captures, the export's timeout for flows). */
+export function defaultLateness(format: InputFormat): number {
+  return format === 'pcap' || format === 'pcapng' ? 5_000 : 120_000;
+}

@@ -1,0 +1,62 @@
+import { ingestInput } from '../ingest/index.js';
+import { DEFAULT_INGEST, type IngestSummary, type InputFormat } from '../ingest/types.js';
+import type { FlowSink } from '../flow/record.js';
+import { formatProblem, type InputProblem } from '../util/problem.js';
+import { rfc3339 } from '../util/time.js';
+
+const MAX_PRINTED_PROBLEMS = 20;
+
+export interface RunInputsOptions {
+  windowMs: number;
+  inputFormat?: InputFormat;
+  quiet: boolean;
+  onFormat?: (f: InputFormat) => void;
+}
+
+export interface RunInputsResult {
+  summaries: IngestSummary[];
+  /** Inputs that could not be read at all (exit 3). */
+  unreadable: string[];
+}
+
+/**
+ * Reads every INPUT in turn into `sink`. Problems are printed as one line each on stderr (bounded);
+ * an input that cannot be opened or recognised is reported and the others still run.
+ */
+export async function runInputs(inputs: readonly string[], sink: FlowSink, o: RunInputsOptions): Promise<RunInputsResult> {
+  const summaries: IngestSummary[] = [];
+  const unreadable: string[] = [];
+  let printed = 0;
+  const onProblem = (p: InputProblem) => {
+    if (o.quiet) return;
+    if (printed < MAX_PRINTED_PROBLEMS) process.stderr.write(`tidewatch: ${formatProblem(p)}\n`);
+    else if (printed === MAX_PRINTED_PROBLEMS) process.stderr.write('tidewatch: further problems are counted in the summary only\n');
+    printed++;
+  };
+  for (const name of inputs) {
+    try {
+      const s = await ingestInput(name, sink, {
+        ...DEFAULT_INGEST, windowMs: o.windowMs, inputFormat: o.inputFormat, onProblem, onFormat: o.onFormat,
+      });
+      summaries.push(s);
+      if (s.stoppedBy && s.stoppedBy.offset === 0 && s.packets === 0 && s.records === 0) unreadable.push(name);
+    } catch (e) {
+      process.stderr.write(`tidewatch: ${(e as Error).message}\n`);
+      unreadable.push(name);
+    }
+  }
+  return { summaries, unreadable };
+}
+
+/** The stderr summary of what was read. */
+export function describeInputs(summaries: readonly IngestSummary[]): string[] {
+  const lines: string[] = [];
+  for (const s of summaries) {
+    const span = Number.isFinite(s.firstMs) ? `${rfc3339(s.firstMs)} .. ${rfc3339(s.lastMs)}` : 'no data';
+    const unit = s.format === 'pcap' || s.format === 'pcapng' ? `${s.packets} packets` : `${s.records} records`;
+    lines.push(`${s.file} (${s.format}): ${unit}, ${s.bytes} bytes, ${s.flows} flows, ${span}${s.truncated ? ', TRUNCATED' : ''}`);
+    const probs = Object.entries(s.problemCounts).filter(([, n]) => n > 0);
+    if (probs.length > 0) lines.push(`  problems: ${probs.map(([k, n]) => `${k}=${n}`).join(', ')}`);
+  }
+  return lines;
+}

@@ -1,0 +1,129 @@
+import { FEATURE_COUNT, F } from '../window/features.js';
+import type { ClosedWindow, WindowAggregator } from '../window/aggregator.js';
+import type { Finding } from './finding.js';
+import type { HostContext } from './context.js';
+import { HostModel } from './model.js';
+import { thresholdsFor, DEFAULT_FLOORS, type Floors, type Thresholds } from './thresholds.js';
+import { trwStep } from './trw.js';
+import { volumeSurge } from './volume-surge.js';
+import { fanInFlood } from './fan-in-flood.js';
+import { verticalScan, horizontalScan } from './scan.js';
+import { unusualDestination } from './unusual-destination.js';
+import { trafficShift } from './traffic-shift.js';
+
+/** Quiet windows after which an episode closes (the alert tracker's closeAfterQuietWindows). */
+export const QUIET_WINDOWS = 3;
+
+/** One detector: one job, reads a host-window, returns findings. */
+export type Detector = (ctx: HostContext) => Finding | Finding[] | null;
+
+export const DETECTORS: Readonly<Record<string, Detector>> = {
+  'volume-surge': volumeSurge,
+  'fan-in-flood': fanInFlood,
+  'vertical-scan': verticalScan,
+  'horizontal-scan': horizontalScan,
+  'unusual-destination': unusualDestination,
+  'traffic-shift': trafficShift,
+};
+
+export interface EngineOptions {
+  alpha: number;
+  floors?: Partial<Floors>;
+  /** Detector names to run (default all). */
+  enabled?: readonly string[];
+  /** Models of hosts idle this long are dropped (counted); seasonal history needs days. */
+  idleEvictMs?: number;
+  /** Learn only (train): run no detector. */
+  learnOnly?: boolean;
+}
+
+/**
+ * Runs the detectors over each closed window and keeps every host's learned model. Hosts are learned
+ * after they are tested, with anomalous values clipped, so an attack is not learned as normal.
+ */
+export class DetectorEngine {
+  readonly models = new Map<number, HostModel>();
+  readonly thresholds: Thresholds;
+  readonly floors: Floors;
+  runWindows = 0;
+  readonly stats = { hostWindows: 0, findings: 0, modelsEvicted: 0 };
+  private readonly detectors: Detector[];
+  private readonly values = new Float64Array(FEATURE_COUNT);
+  private readonly anomalous = new Uint8Array(FEATURE_COUNT);
+  private readonly idleEvictMs: number;
+  /** End of the last window with a finding, per (kind, host, role). */
+  private readonly lastFinding = new Map<string, number>();
+
+  constructor(private agg: WindowAggregator, private opts: EngineOptions) {
+    this.thresholds = thresholdsFor(opts.alpha);
+    this.floors = { ...DEFAULT_FLOORS, ...opts.floors };
+    const names = opts.enabled ?? Object.keys(DETECTORS);
+    this.detectors = names.map((n) => {
+      const d = DETECTORS[n];
+      if (!d) throw new Error(`unknown detector: ${n}`);
+      return d;
+    });
+    this.idleEvictMs = opts.idleEvictMs ?? 9 * 86_400_000;
+  }
+
+  onWindow(w: ClosedWindow): Finding[] {
+    this.runWindows++;
+    const out: Finding[] = [];
+    const name = (id: number) => this.agg.addresses.name(id);
+    for (const acc of w.hosts) {
+      let model = this.models.get(acc.hostId);
+      if (!model) { model = new HostModel(); this.models.set(acc.hostId, model); }
+      const values = acc.values(this.values);
+      trwStep(model, acc.pairOk, acc.pairFail, this.thresholds.trwLogUpper, this.thresholds.trwLogLower);
+      this.anomalous.fill(0);
+      if (!this.opts.learnOnly) {
+        const ctx: HostContext = {
+          host: name(acc.hostId), hostId: acc.hostId, inside: this.agg.isInsideId(acc.hostId),
+          windowStart: w.start, windowEnd: w.end, acc, values, model,
+          thresholds: this.thresholds, floors: this.floors, runWindows: this.runWindows, name,
+        };
+        for (const d of this.detectors) {
+          const r = d(ctx);
+          if (!r) continue;
+          for (const f of Array.isArray(r) ? r : [r]) {
+            if (!this.admit(f, w)) continue;
+            out.push(f);
+            const fi = (F as Record<string, number>)[f.feature];
+            if (fi !== undefined) this.anomalous[fi] = 1;
+          }
+        }
+      }
+      model.learn(values, w.start, this.anomalous);
+      this.stats.hostWindows++;
+    }
+    this.stats.findings += out.length;
+    if (this.runWindows % 60 === 0) this.evict(w.start);
+    return out;
+  }
+
+  /**
+   * Opening versus continuing (detect/thresholds.ts): a candidate opens an episode only past z(alpha)
+   * with its alpha gates held; while the same (kind, host, role) had a finding within the last
+   * QUIET_WINDOWS windows (the alert tracker's closing rule) it continues at CONTINUE_Z.
+   */
+  private admit(f: Finding, w: ClosedWindow): boolean {
+    const key = `${f.kind}|${f.host}|${f.role}`;
+    const last = this.lastFinding.get(key);
+    const continuing = last !== undefined && w.start - last < QUIET_WINDOWS * (w.end - w.start);
+    if (!continuing && !(f.score > this.thresholds.z && f.openable !== false)) return false;
+    this.lastFinding.set(key, w.end);
+    return true;
+  }
+
+  private evict(now: number): void {
+    for (const [key, end] of this.lastFinding) if (now - end > 3_600_000) this.lastFinding.delete(key);
+    for (const [id, m] of this.models) {
+      const idle = now - m.lastActiveStart;
+      // hosts seen in few windows go after a day of silence; learned hosts after idleEvictMs
+      if (idle > this.idleEvictMs || (m.activeWindows < 12 && idle > 86_400_000)) {
+        this.models.delete(id);
+        this.stats.modelsEvicted++;
+      }
+    }
+  }
+}

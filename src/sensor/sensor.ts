@@ -1,0 +1,72 @@
+import type { FlowRecord } from '../flow/record.js';
+import type { Alert } from '../alert/alert.js';
+import { EpisodeTracker } from '../alert/episodes.js';
+import { WindowAggregator, type ClosedWindow } from '../window/aggregator.js';
+import { DetectorEngine, QUIET_WINDOWS } from '../detect/engine.js';
+import type { Floors } from '../detect/thresholds.js';
+import { CidrSet } from '../util/addr.js';
+
+export interface SensorOptions {
+  windowMs: number;
+  latenessMs: number;
+  alpha: number;
+  internal: readonly string[];
+  sensor: string;
+  mode: 'replay' | 'live';
+  maxAlertsPerHour?: number;
+  floors?: Partial<Floors>;
+  enabled?: readonly string[];
+  /** train: learn baselines and peer history, emit nothing. */
+  learnOnly?: boolean;
+}
+
+/**
+ * The whole detection path wired once: FlowRecord -> windows -> detectors -> episodes -> alerts.
+ * `replay`, `watch`, `train` and `demo` all drive this; only their sources and sinks differ.
+ */
+export class Sensor {
+  readonly aggregator: WindowAggregator;
+  readonly engine: DetectorEngine;
+  readonly tracker: EpisodeTracker;
+  /** Called after each closed window's alerts were emitted (sinks sync here). */
+  onWindowClosed: ((w: ClosedWindow) => void) | null = null;
+
+  constructor(readonly opts: SensorOptions, emit: (a: Alert) => void) {
+    this.aggregator = new WindowAggregator(
+      { windowMs: opts.windowMs, latenessMs: opts.latenessMs, internal: new CidrSet(opts.internal) },
+      (w) => this.closeWindow(w),
+    );
+    this.engine = new DetectorEngine(this.aggregator, {
+      alpha: opts.alpha, floors: opts.floors, enabled: opts.enabled, learnOnly: opts.learnOnly,
+    });
+    this.tracker = new EpisodeTracker({
+      windowMs: opts.windowMs, sensor: opts.sensor, mode: opts.mode,
+      maxAlertsPerHour: opts.maxAlertsPerHour, closeAfterQuietWindows: QUIET_WINDOWS,
+    }, emit);
+  }
+
+  readonly record = (r: FlowRecord): void => {
+    this.aggregator.add(r);
+  };
+
+  setLateness(ms: number): void {
+    this.aggregator.setLateness(ms);
+  }
+
+  /** Moves event time forward without data (live idleness). */
+  advance(tMs: number): void {
+    this.aggregator.advance(tMs);
+  }
+
+  /** End of input: close every window and every episode. */
+  finish(): void {
+    this.aggregator.finish();
+    this.tracker.finish();
+  }
+
+  private closeWindow(w: ClosedWindow): void {
+    const findings = this.engine.onWindow(w);
+    this.tracker.observe(findings, w.start, w.end);
+    this.onWindowClosed?.(w);
+  }
+}

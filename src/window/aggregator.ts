@@ -1,0 +1,186 @@
+import type { FlowRecord } from '../flow/record.js';
+import type { CidrSet } from '../util/addr.js';
+import { isNonHost } from '../util/addr.js';
+import { AddressTable } from './intern.js';
+import { PairHistory } from './pair-history.js';
+import { HostAcc } from './host-acc.js';
+
+export interface WindowOptions {
+  windowMs: number;
+  /** Watermark = latest event time seen minus this (5 s for captures, the active timeout for exports). */
+  latenessMs: number;
+  internal: CidrSet;
+  /** A new peer stays "new" for unusual-destination this long after first contact. */
+  newPeerMemoryMs?: number;
+  /** Pairs kept per generation in the peer history (memory bound). */
+  maxHistoryPairs?: number;
+}
+
+/** One closed window: every host active in it, in both roles. */
+export interface ClosedWindow {
+  start: number;
+  end: number;
+  hosts: HostAcc[];
+}
+
+interface RecentPeer { peer: number; first: number }
+
+/**
+ * Per-host windows in event time (DESIGN.md section 2, window/). Flow records are attributed to the
+ * window of their start; records longer than one window spread their packets and bytes over the
+ * windows they overlap. A window closes when the watermark passes its end; records for closed windows
+ * are late and counted. Every address is tracked as source and as target; the peer history behind
+ * `new_peers`, first contacts and destination prevalence lives here too.
+ */
+export class WindowAggregator {
+  readonly addresses = new AddressTable();
+  readonly history: PairHistory;
+  /** Distinct inside hosts that ever contacted each address (by address id), saturating at 65535. */
+  prevalence = new Uint16Array(1024);
+  /** Inside addresses seen so far. */
+  insideHosts = 0;
+  private insideSeen = new Uint8Array(1024);
+  private recent = new Map<number, RecentPeer[]>();
+  private open = new Map<number, Map<number, HostAcc>>();
+  /** Index of the next window to close (all earlier ones are closed). */
+  private nextClose = Number.NaN;
+  private maxTime = Number.NEGATIVE_INFINITY;
+  readonly stats = { records: 0, late: 0, nonHostDst: 0, windowsClosed: 0, lateVolumeMoved: 0 };
+  private readonly W: number;
+  private readonly newPeerMemory: number;
+
+  /** Called for each first contact of an inside or outside initiator to a new peer (TRW input). */
+  onFirstContact: ((src: number, dst: number, r: FlowRecord) => void) | null = null;
+
+  constructor(private opts: WindowOptions, private onClose: (w: ClosedWindow) => void) {
+    this.W = opts.windowMs;
+    this.newPeerMemory = opts.newPeerMemoryMs ?? 3_600_000;
+    this.history = new PairHistory(opts.maxHistoryPairs);
+  }
+
+  isInsideId(id: number): boolean {
+    return id < this.insideSeen.length && this.insideSeen[id] === 2;
+  }
+
+  add(r: FlowRecord): void {
+    this.stats.records++;
+    const w = Math.floor(r.start / this.W);
+    if (Number.isNaN(this.nextClose)) this.nextClose = w;
+    if (w < this.nextClose) { this.stats.late++; return; }
+    const bucket = this.bucket(w);
+    const srcId = this.addresses.id(r.src);
+    const dstId = this.addresses.id(r.dst);
+    this.grow(Math.max(srcId, dstId) + 1);
+    const srcInside = this.markInside(srcId, r.src);
+    this.markInside(dstId, r.dst);
+
+    const newPair = this.history.add(srcId, dstId);
+    if (newPair) {
+      if (srcInside && this.prevalence[dstId]! < 65535) this.prevalence[dstId]!++;
+      this.onFirstContact?.(srcId, dstId, r);
+    }
+    const src = this.acc(bucket, srcId);
+    src.asInitiator(r, dstId, newPair);
+    if (srcInside) this.trackNewPeer(src, srcId, dstId, newPair, r);
+
+    if (isNonHost(r.dst)) this.stats.nonHostDst++;
+    else this.acc(bucket, dstId).asResponder(r, srcId);
+
+    if (r.end > this.maxTime) this.maxTime = r.end;
+    this.closeUpTo(this.maxTime - this.opts.latenessMs);
+  }
+
+  private trackNewPeer(src: HostAcc, srcId: number, dstId: number, newPair: boolean, r: FlowRecord): void {
+    let list = this.recent.get(srcId);
+    if (newPair) {
+      if (!list) { list = []; this.recent.set(srcId, list); }
+      if (list.length >= 16) list.shift();
+      list.push({ peer: dstId, first: r.start });
+    }
+    if (!list) return;
+    for (const p of list) {
+      if (p.peer !== dstId) continue;
+      if (r.start - p.first > this.newPeerMemory) return;
+      if (!this.isRare(dstId)) return;
+      src.newPeerBytes += r.bytes;
+      if (r.bytes > src.newPeerTopBytes) { src.newPeerTop = dstId; src.newPeerTopBytes = r.bytes; }
+      return;
+    }
+  }
+
+  /** Contacted by at most one other inside host beyond the first, or by <= 2% of them. */
+  isRare(id: number): boolean {
+    const others = this.prevalence[id]! - 1;
+    return others <= Math.max(1, Math.floor(this.insideHosts * 0.02));
+  }
+
+  /** Allowed lateness can change between inputs (captures 5 s, flow exports longer). */
+  setLateness(ms: number): void {
+    this.opts = { ...this.opts, latenessMs: ms };
+  }
+
+  /** Advances the watermark without a record (wall-clock idleness, end of a quiet input). */
+  advance(tMs: number): void {
+    if (tMs > this.maxTime) this.maxTime = tMs;
+    this.closeUpTo(this.maxTime - this.opts.latenessMs);
+  }
+
+  /** Closes every open window (end of input). */
+  finish(): void {
+    if (Number.isNaN(this.nextClose)) return;
+    let last = this.nextClose - 1;
+    for (const w of this.open.keys()) if (w > last) last = w;
+    this.closeUpTo((last + 1) * this.W);
+  }
+
+  private closeUpTo(watermark: number): void {
+    if (Number.isNaN(this.nextClose)) return;
+    while ((this.nextClose + 1) * this.W <= watermark) {
+      const w = this.nextClose;
+      const bucket = this.open.get(w);
+      this.open.delete(w);
+      this.nextClose = w + 1;
+      this.stats.windowsClosed++;
+      this.onClose({ start: w * this.W, end: (w + 1) * this.W, hosts: bucket ? [...bucket.values()] : [] });
+      this.pruneRecent(w * this.W);
+    }
+  }
+
+  private pruneRecent(now: number): void {
+    if (this.stats.windowsClosed % 60 !== 0) return;
+    for (const [k, list] of this.recent) {
+      const keep = list.filter((p) => now - p.first <= this.newPeerMemory);
+      if (keep.length === 0) this.recent.delete(k);
+      else if (keep.length !== list.length) this.recent.set(k, keep);
+    }
+  }
+
+  private bucket(w: number): Map<number, HostAcc> {
+    let b = this.open.get(w);
+    if (!b) { b = new Map(); this.open.set(w, b); }
+    return b;
+  }
+
+  private acc(b: Map<number, HostAcc>, id: number): HostAcc {
+    let a = b.get(id);
+    if (!a) { a = new HostAcc(id); b.set(id, a); }
+    return a;
+  }
+
+  private markInside(id: number, addr: string): boolean {
+    const s = this.insideSeen[id]!;
+    if (s !== 0) return s === 2;
+    const inside = this.opts.internal.has(addr);
+    this.insideSeen[id] = inside ? 2 : 1;
+    if (inside) this.insideHosts++;
+    return inside;
+  }
+
+  private grow(n: number): void {
+    if (n <= this.prevalence.length) return;
+    let len = this.prevalence.length;
+    while (len < n) len *= 2;
+    const p = new Uint16Array(len); p.set(this.prevalence); this.prevalence = p;
+    const s = new Uint8Array(len); s.set(this.insideSeen); this.insideSeen = s;
+  }
+}

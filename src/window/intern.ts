@@ -1,0 +1,44 @@
+/**
+ * Address interning: every distinct address text gets a small integer id once, so per-window sets,
+ * sketches and history work on integers. Ids of evicted hosts are reused through a free list.
+ */
+export class AddressTable {
+  private ids = new Map<string, number>();
+  private names: string[] = [];
+  private free: number[] = [];
+
+  id(addr: string): number {
+    let id = this.ids.get(addr);
+    if (id === undefined) {
+      id = this.free.length > 0 ? this.free.pop()! : this.names.length;
+      this.ids.set(addr, id);
+      this.names[id] = addr;
+    }
+    return id;
+  }
+
+  /** The id of a known address, or -1. */
+  peek(addr: string): number {
+    return this.ids.get(addr) ?? -1;
+  }
+
+  name(id: number): string {
+    return this.names[id]!;
+  }
+
+  release(id: number): void {
+    const n = this.names[id];
+    if (n === undefined) return;
+    this.ids.delete(n);
+    this.free.push(id);
+  }
+
+  /** Upper bound of ids handed out so far (array sizes). */
+  get capacity(): number {
+    return this.names.length;
+  }
+
+  get size(): number {
+    return this.ids.size;
+  }
+}
