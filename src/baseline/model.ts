@@ -1,0 +1,369 @@
+/**
+ * Per (host, feature) baselines: the robust EWMA band (ewma.ts) plus, for features with enough activity,
+ * a seasonal profile (seasonal.ts), with the trust rules of DESIGN.md 6 / METHODS.md 7.7:
+ * - `ready` only after `readyAfter` (12) windows of history.
+ * - The seasonal profile is allocated only after `seasonalAfterActive` (60) windows with a non-zero
+ *   value, and serves only per slot after 4 full cycles; until then the EWMA band serves.
+ * - Silent windows are zeros, applied lazily: a host seen again after k windows gets k zero windows
+ *   (closed form) before its new value. Windows inside `markMissing` intervals (no input at all, e.g.
+ *   a capture or exporter gap) are missing instead: up to `maxMissingFraction` (10 %) of a slot's
+ *   history is tolerated; past that the slot restarts its warm-up (level, deviation and history
+ *   cleared; a seasonal profile is kept, since its 4-cycle gate protects it).
+ * - Learning during an anomaly: `observe(x, t, true)` learns x clipped to the band edge at the FIXED
+ *   z = 3 (LEARN_CLIP_Z), whatever alpha the detector uses, so alpha never changes what is learned.
+ * Call order per window: `band(t, z)` / `score(x, t)` first (history before t), then `observe(x, t)`.
+ *
+ * BaselineBank keeps every slot in struct-of-arrays typed arrays: 32 octets per host-feature without a
+ * seasonal profile (level and deviation Float32; history, missing and active counts Uint32; last
+ * window start Float64; profile index Int32), plus about 2.5 KB per allocated seasonal profile.
+ * `slotOf(host, feature)` maps a host index and feature index to a slot. FeatureBaseline is the same
+ * model for a single feature as one object (a bank of one slot).
+ */
+import { EwmaRule, type EwmaOptions } from './ewma.js';
+import { SeasonalConfig, SeasonalProfile, type SeasonalExpectation, type SeasonalOptions } from './seasonal.js';
+
+/** Band half-width in sigmas used to clip values learned while anomalous (fixed, independent of alpha). */
+export const LEARN_CLIP_Z = 3;
+
+export interface BaselineOptions extends EwmaOptions {
+  /** Window length in ms (the spacing of observe() times). */
+  windowMs: number;
+  /** Features per host, for slotOf (default 1). */
+  features?: number;
+  /** Windows of history before the band is trusted (default 12, DESIGN.md 6). */
+  readyAfter?: number;
+  /** Missing windows tolerated as a fraction of history before warm-up restarts (default 0.1). */
+  maxMissingFraction?: number;
+  /** Seasonal profile options, or false for none (default {}: UTC hours). */
+  seasonal?: Omit<SeasonalOptions, 'spreadFloor'> | false;
+  /** Non-zero windows before a seasonal profile is allocated (default 60). */
+  seasonalAfterActive?: number;
+  /** Initial slot capacity (default 1024); the bank doubles as slots are used. */
+  initialCapacity?: number;
+}
+
+export interface Band {
+  /** Expected value, original units. */
+  expected: number;
+  /** Band edges at the requested z, original units (asymmetric for log1p). */
+  low: number;
+  high: number;
+  /** Sigma in the transform space: score = (T(x) - T(expected)) / spread. */
+  spread: number;
+  /** At least readyAfter windows of history. */
+  ready: boolean;
+  /** The seasonal profile supplied expected and spread. */
+  seasonal: boolean;
+}
+
+const SLOT_HEADER = 32;
+const SLOT_VERSION = 1;
+const BYTES_PER_SLOT = 4 + 4 + 4 + 4 + 4 + 8 + 4;
+
+export class BaselineBank {
+  readonly rule: EwmaRule;
+  readonly windowMs: number;
+  readonly features: number;
+  readonly readyAfter: number;
+  readonly maxMissingFraction: number;
+  readonly seasonalAfterActive: number;
+  readonly seasonalConfig: SeasonalConfig | null;
+  private capacity = 0;
+  private level = new Float32Array(0);
+  private dev = new Float32Array(0);
+  private history = new Uint32Array(0);
+  private missing = new Uint32Array(0);
+  private active = new Uint32Array(0);
+  private last = new Float64Array(0);
+  private profileOf = new Int32Array(0);
+  private readonly profiles: SeasonalProfile[] = [];
+  /** Sorted [from, to) pairs of markMissing intervals. */
+  private readonly gaps: number[] = [];
+  private readonly out = new Float64Array(2);
+  private readonly seasonalScratch: SeasonalExpectation = { expected: 0, spread: 0, cycles: 0, weekly: false };
+  // centre and sigma (transform space) of the last resolve() call
+  private centre = 0;
+  private sigma = 0;
+  private fromProfile = false;
+
+  constructor(o: BaselineOptions) {
+    if (!(o.windowMs > 0)) throw new RangeError('windowMs must be positive');
+    this.rule = new EwmaRule(o);
+    this.windowMs = o.windowMs;
+    this.features = o.features ?? 1;
+    this.readyAfter = o.readyAfter ?? 12;
+    this.maxMissingFraction = o.maxMissingFraction ?? 0.1;
+    this.seasonalAfterActive = o.seasonalAfterActive ?? 60;
+    const rule = this.rule;
+    this.seasonalConfig =
+      o.seasonal === false ? null : new SeasonalConfig({ ...o.seasonal, spreadFloor: (level) => rule.floor(level) });
+    this.grow(o.initialCapacity ?? 1024);
+  }
+
+  slotOf(host: number, feature: number): number {
+    return host * this.features + feature;
+  }
+
+  /** Windows of history of a slot (0 for an unused slot). */
+  historyOf(slot: number): number {
+    return slot < this.capacity ? this.history[slot]! : 0;
+  }
+
+  /** Declares that windows starting in [fromMs, toMs) had no input at all (missing, not silent). */
+  markMissing(fromMs: number, toMs: number): void {
+    if (!(toMs > fromMs)) return;
+    let i = this.gaps.length;
+    while (i > 0 && this.gaps[i - 2]! > fromMs) i -= 2;
+    this.gaps.splice(i, 0, fromMs, toMs);
+  }
+
+  /**
+   * Learns value x for the window starting at tMs. Windows must come in time order per slot; a window
+   * not after the slot's last one is ignored (returns false). `anomalous` learns the clipped value.
+   */
+  observe(slot: number, x: number, tMs: number, anomalous = false): boolean {
+    if (slot >= this.capacity) this.grow(Math.max(slot + 1, 2 * this.capacity));
+    const last = this.last[slot]!;
+    if (tMs <= last) return false;
+    this.catchUp(slot, tMs);
+    let y = this.rule.forward(x);
+    if (anomalous && !Number.isNaN(last)) {
+      this.resolve(slot, tMs);
+      const half = LEARN_CLIP_Z * this.sigma;
+      if (y > this.centre + half) y = this.centre + half;
+      else if (y < this.centre - half) y = this.centre - half;
+    }
+    this.rule.step(this.level[slot]!, this.dev[slot]!, this.history[slot]!, y, this.out);
+    this.level[slot] = this.out[0]!;
+    this.dev[slot] = this.out[1]!;
+    this.history[slot]!++;
+    if (x !== 0) this.active[slot]!++;
+    const profile = this.profileFor(slot);
+    if (profile !== null) profile.observe(y, tMs);
+    this.last[slot] = tMs;
+    return true;
+  }
+
+  /** The band for the window starting at tMs at z sigmas; fills and returns `out` (no allocation if given). */
+  band(slot: number, tMs: number, z: number, out?: Band): Band {
+    const b = out ?? { expected: 0, low: 0, high: 0, spread: 0, ready: false, seasonal: false };
+    if (slot >= this.capacity || Number.isNaN(this.last[slot]!)) {
+      b.expected = b.low = b.high = 0;
+      b.spread = this.rule.floor(0);
+      b.ready = b.seasonal = false;
+      return b;
+    }
+    this.catchUp(slot, tMs);
+    this.resolve(slot, tMs);
+    b.expected = this.rule.inverse(this.centre);
+    b.low = this.rule.inverse(this.centre - z * this.sigma);
+    b.high = this.rule.inverse(this.centre + z * this.sigma);
+    b.spread = this.sigma;
+    b.ready = this.history[slot]! >= this.readyAfter;
+    b.seasonal = this.fromProfile;
+    return b;
+  }
+
+  /** (T(x) - T(expected)) / spread for the window starting at tMs; x > band(z).high exactly when score > z. */
+  score(slot: number, x: number, tMs: number): number {
+    if (slot >= this.capacity || Number.isNaN(this.last[slot]!)) return this.rule.forward(x) / this.rule.floor(0);
+    this.catchUp(slot, tMs);
+    this.resolve(slot, tMs);
+    return (this.rule.forward(x) - this.centre) / this.sigma;
+  }
+
+  /** Typed-array bytes held, including seasonal profiles. */
+  memoryBytes(): number {
+    let total = this.capacity * BYTES_PER_SLOT;
+    for (const p of this.profiles) total += p.memoryBytes();
+    return total;
+  }
+
+  get seasonalProfiles(): number {
+    return this.profiles.length;
+  }
+
+  /** One slot's state as bytes (little-endian; for the state store). */
+  slotToBytes(slot: number): Uint8Array {
+    const id = slot < this.capacity ? this.profileOf[slot]! : -1;
+    const profile = id >= 0 ? this.profiles[id]!.toBytes() : null;
+    const b = new Uint8Array(SLOT_HEADER + (profile?.length ?? 0));
+    const dv = new DataView(b.buffer);
+    b[0] = SLOT_VERSION;
+    b[1] = profile ? 1 : 0;
+    if (slot < this.capacity) {
+      dv.setFloat32(4, this.level[slot]!, true);
+      dv.setFloat32(8, this.dev[slot]!, true);
+      dv.setUint32(12, this.history[slot]!, true);
+      dv.setUint32(16, this.missing[slot]!, true);
+      dv.setUint32(20, this.active[slot]!, true);
+      dv.setFloat64(24, this.last[slot]!, true);
+    } else {
+      dv.setFloat64(24, NaN, true);
+    }
+    if (profile) b.set(profile, SLOT_HEADER);
+    return b;
+  }
+
+  /** Restores a slot from slotToBytes output; false (slot untouched) when the bytes do not fit. */
+  slotFromBytes(slot: number, b: Uint8Array): boolean {
+    if (b.length < SLOT_HEADER || b[0] !== SLOT_VERSION || b[1]! > 1) return false;
+    let profile: SeasonalProfile | null = null;
+    if (b[1] === 1) {
+      if (this.seasonalConfig === null) return false;
+      profile = SeasonalProfile.fromBytes(b.subarray(SLOT_HEADER), this.seasonalConfig);
+      if (profile === null) return false;
+    } else if (b.length !== SLOT_HEADER) return false;
+    if (slot >= this.capacity) this.grow(Math.max(slot + 1, 2 * this.capacity));
+    const dv = new DataView(b.buffer, b.byteOffset, b.byteLength);
+    this.level[slot] = dv.getFloat32(4, true);
+    this.dev[slot] = dv.getFloat32(8, true);
+    this.history[slot] = dv.getUint32(12, true);
+    this.missing[slot] = dv.getUint32(16, true);
+    this.active[slot] = dv.getUint32(20, true);
+    this.last[slot] = dv.getFloat64(24, true);
+    const old = this.profileOf[slot]!;
+    if (profile === null) this.profileOf[slot] = -1;
+    else if (old >= 0) this.profiles[old] = profile;
+    else this.profileOf[slot] = this.profiles.push(profile) - 1;
+    return true;
+  }
+
+  /** Centre and sigma (transform space) for tMs: the seasonal slot when ready, else the EWMA band. */
+  private resolve(slot: number, tMs: number): void {
+    const id = this.profileOf[slot]!;
+    if (id >= 0 && this.profiles[id]!.expectedAt(tMs, this.seasonalScratch) !== null) {
+      this.centre = this.seasonalScratch.expected;
+      this.sigma = this.seasonalScratch.spread;
+      this.fromProfile = true;
+      return;
+    }
+    this.centre = this.level[slot]!;
+    this.sigma = this.rule.sigma(this.centre, this.dev[slot]!);
+    this.fromProfile = false;
+  }
+
+  /** Accounts every window after the slot's last one and before tMs: silent (zero) or missing. */
+  private catchUp(slot: number, tMs: number): void {
+    const last = this.last[slot]!;
+    if (Number.isNaN(last)) return;
+    const w = this.windowMs;
+    const first = last + w;
+    const k = Math.round((tMs - first) / w);
+    if (k <= 0) return;
+    let done = 0;
+    const gaps = this.gaps;
+    for (let g = 0; g < gaps.length; g += 2) {
+      const a = windowsBefore(gaps[g]!, first, w, k);
+      const b = windowsBefore(gaps[g + 1]!, first, w, k);
+      if (b <= done) continue;
+      if (a > done) {
+        this.zeros(slot, first + done * w, a - done);
+        done = a;
+      }
+      this.addMissing(slot, b - done);
+      done = b;
+    }
+    if (k > done) this.zeros(slot, first + done * w, k - done);
+    this.last[slot] = first + (k - 1) * w;
+  }
+
+  private zeros(slot: number, fromMs: number, k: number): void {
+    this.rule.zeros(this.level[slot]!, this.dev[slot]!, this.history[slot]!, k, this.out);
+    this.level[slot] = this.out[0]!;
+    this.dev[slot] = this.out[1]!;
+    this.history[slot]! += k;
+    const id = this.profileOf[slot]!;
+    if (id >= 0) this.profiles[id]!.observeZeros(fromMs, k, this.windowMs);
+  }
+
+  private addMissing(slot: number, k: number): void {
+    const missing = this.missing[slot]! + k;
+    if (missing > this.maxMissingFraction * (this.history[slot]! + missing)) {
+      this.level[slot] = 0;
+      this.dev[slot] = 0;
+      this.history[slot] = 0;
+      this.missing[slot] = 0;
+    } else {
+      this.missing[slot] = missing;
+    }
+  }
+
+  /** The slot's profile, allocating it once the slot has enough active windows. */
+  private profileFor(slot: number): SeasonalProfile | null {
+    const id = this.profileOf[slot]!;
+    if (id >= 0) return this.profiles[id]!;
+    if (this.seasonalConfig === null || this.active[slot]! < this.seasonalAfterActive) return null;
+    const p = new SeasonalProfile(this.seasonalConfig);
+    this.profileOf[slot] = this.profiles.push(p) - 1;
+    return p;
+  }
+
+  private grow(capacity: number): void {
+    const old = this.capacity;
+    const resize = <T extends Float32Array | Float64Array | Uint32Array | Int32Array>(a: T, make: (n: number) => T): T => {
+      const b = make(capacity);
+      b.set(a);
+      return b;
+    };
+    this.level = resize(this.level, (n) => new Float32Array(n));
+    this.dev = resize(this.dev, (n) => new Float32Array(n));
+    this.history = resize(this.history, (n) => new Uint32Array(n));
+    this.missing = resize(this.missing, (n) => new Uint32Array(n));
+    this.active = resize(this.active, (n) => new Uint32Array(n));
+    this.last = resize(this.last, (n) => new Float64Array(n));
+    this.last.fill(NaN, old);
+    this.profileOf = resize(this.profileOf, (n) => new Int32Array(n));
+    this.profileOf.fill(-1, old);
+    this.capacity = capacity;
+  }
+}
+
+/** How many of the k windows starting at first, w apart, start before t. */
+function windowsBefore(t: number, first: number, w: number, k: number): number {
+  return Math.min(k, Math.max(0, Math.ceil((t - first) / w)));
+}
+
+/** One feature's baseline as a single object: a BaselineBank with one slot. */
+export class FeatureBaseline {
+  private readonly bank: BaselineBank;
+
+  constructor(options: BaselineOptions) {
+    this.bank = new BaselineBank({ ...options, features: 1, initialCapacity: 1 });
+  }
+
+  /** Windows of history. */
+  get n(): number {
+    return this.bank.historyOf(0);
+  }
+
+  get hasSeasonalProfile(): boolean {
+    return this.bank.seasonalProfiles > 0;
+  }
+
+  observe(x: number, tMs: number, anomalous = false): boolean {
+    return this.bank.observe(0, x, tMs, anomalous);
+  }
+
+  markMissing(fromMs: number, toMs: number): void {
+    this.bank.markMissing(fromMs, toMs);
+  }
+
+  band(tMs: number, z: number, out?: Band): Band {
+    return this.bank.band(0, tMs, z, out);
+  }
+
+  score(x: number, tMs: number): number {
+    return this.bank.score(0, x, tMs);
+  }
+
+  toBytes(): Uint8Array {
+    return this.bank.slotToBytes(0);
+  }
+
+  /** Restores a baseline written by toBytes under the same options; null when the bytes do not fit. */
+  static fromBytes(b: Uint8Array, options: BaselineOptions): FeatureBaseline | null {
+    const f = new FeatureBaseline(options);
+    return f.bank.slotFromBytes(0, b) ? f : null;
+  }
+}
