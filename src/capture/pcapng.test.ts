@@ -71,6 +71,9 @@ describe('pcapng timestamps', () => {
       [0x80 | 32, 0xfedc_ba98_7654_3210n],
       [0x80 | 20, (1n << 60n) + 12345n],
       [3, 9_007_199_254_740_993n],
+      [6, (1n << 53n) - 1n], // last tick count on the single-division path
+      [9, 1n << 53n],
+      [0x80 | 10, (1n << 53n) + 1023n],
     ];
     for (const [tsresol, ticks] of cases) {
       const units = tsresol & 0x80 ? 1n << BigInt(tsresol & 0x7f) : 10n ** BigInt(tsresol);

@@ -33,6 +33,14 @@ export interface Instant {
  * the remainder as nanoseconds. Each step keeps x < units * 2^16 <= 2^48, so `%` and the division are exact.
  */
 export function ticksToInstant(hi: number, lo: number, units: number, nsPer: number, offsetSec: number, out: Instant): void {
+  if (hi < 0x200000) {
+    // ticks < 2^53 (microsecond clocks until the year 2255): one exact `%` and one exact division.
+    const ticks = hi * 4294967296 + lo;
+    const rem = ticks % units;
+    out.sec = (ticks - rem) / units + offsetSec;
+    out.ns = Math.floor(rem * nsPer);
+    return;
+  }
   let x = hi >>> 16;
   let r = x % units;
   let q = (x - r) / units;
