@@ -12,7 +12,8 @@
  *   first (Ertl 2017, reducing p), so merge(A, B) has exactly the bytes of the sketch of A ∪ B.
  * Keys: non-negative integers below 2^53 (`add`) or pairs of unsigned 32-bit integers (`addPair`). A pair
  * (a, b) hashes like the key b * 2^32 + a, so use one key style per sketch.
- * `add`/`addPair` allocate only when the sparse array grows or the sketch turns dense.
+ * `add`/`addPair` allocate only when the sparse array grows or the sketch turns dense. Measured on
+ * Node 20: about 60 heap bytes empty, about 155 with a few keys, about 4.2 KB dense at p = 12.
  */
 import { hash64 } from './hash.js';
 
@@ -26,6 +27,10 @@ const EMPTY = new Uint32Array(0);
 const TWO32 = 4294967296;
 /** alpha_inf = 1 / (2 ln 2), Ertl 2017. */
 const ALPHA_INF = 1 / (2 * Math.LN2);
+
+/** V8 heap estimates measured on Node 20: the sketch object, and each typed array's own overhead. */
+const OBJECT_BYTES = 60;
+const TYPED_ARRAY_BYTES = 64;
 
 const scratch = new Uint32Array(2);
 const histogram = new Float64Array(66);
@@ -75,7 +80,14 @@ function rankOf(hi: number, lo: number, p: number): number {
   return 32 - p + Math.clz32(lo) + 1;
 }
 
-export class HyperLogLog {
+/** Per-window distinct counting as the window stage uses it; HyperLogLog is the implementation. */
+export interface DistinctCounter {
+  add(key: number): void;
+  count(): number;
+  reset(): void;
+}
+
+export class HyperLogLog implements DistinctCounter {
   private precision: number;
   /** Sorted (hi, lo) pairs of distinct hashes while sparse; EMPTY when dense or never used. */
   private sparse: Uint32Array = EMPTY;
@@ -159,9 +171,12 @@ export class HyperLogLog {
     this.registers = null;
   }
 
-  /** Payload bytes held (typed arrays) plus a fixed estimate for the object itself. */
+  /** Estimated heap bytes: the object, plus each typed array it holds with its overhead. */
   memoryBytes(): number {
-    return 64 + this.sparse.byteLength + (this.registers?.byteLength ?? 0);
+    let bytes = OBJECT_BYTES;
+    if (this.sparse !== EMPTY) bytes += TYPED_ARRAY_BYTES + this.sparse.byteLength;
+    if (this.registers !== null) bytes += TYPED_ARRAY_BYTES + this.registers.byteLength;
+    return bytes;
   }
 
   /**
