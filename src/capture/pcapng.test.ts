@@ -101,6 +101,7 @@ describe('pcapng timestamps', () => {
 });
 
 describe('pcapng blocks', () => {
+  // pcapng draft, IDB: per-interface LinkType and SnapLen, 0 = no limit (METHODS 1.2 [V]).
   it('each interface has its own link type and snaplen; snaplen 0 means no limit', () => {
     const file = new PcapngBuilder().shb().idb({ linkType: 1, snaplen: 0 }).idb({ linkType: 101, snaplen: 100 })
       .epb(1, 1n, frame(100)).epb(0, 2n, frame(3000)).bytes();
@@ -115,6 +116,7 @@ describe('pcapng blocks', () => {
     expect(summary.problems).toEqual([expect.objectContaining({ reason: 'record-too-long', offset: 48, fatal: true })]);
   });
 
+  // pcapng draft, sections: byte order and interface IDs are per section (METHODS 1.2 [V]).
   it('several sections, each with its own byte order and interface list', () => {
     const file = new Uint8Array([
       ...new PcapngBuilder().shb({ le: true }).idb({ linkType: 1 }).idb({ linkType: 113 }).epb(1, 1_000_000n, F60).bytes(),
@@ -136,6 +138,7 @@ describe('pcapng blocks', () => {
     expect(summary.problems[0]).toMatchObject({ offset: 48, fatal: false });
   });
 
+  // pcapng draft, SPB (METHODS 1.2 [V]); the synthetic time and the untimed flag are ours (METHODS 1.2 [P]).
   it('SPB: interface 0, captured = min(original, snaplen), time = last seen, input flagged untimed', () => {
     const file = new PcapngBuilder().shb().idb({ snaplen: 40, linkType: 101 }).epb(0, 3_000_007n, frame(40), 200).spb(frame(40), 100).bytes();
     const { packets, summary } = parseInChunks(file, 4096);
@@ -152,11 +155,13 @@ describe('pcapng blocks', () => {
     expect(summary.untimed).toBe(false);
   });
 
+  // Packet Block layout (16-bit interface ID, 16-bit drops count) from memory of the pcapng draft's appendix [M].
   it('accepts the obsolete Packet Block (type 2)', () => {
     const p = onlyPacket(new PcapngBuilder().shb().idb({ linkType: 101 }).idb({ linkType: 1 }).pb(1, 2_000_000n, F60, 70).bytes());
     expect([p.linkType, p.sec, p.capLen, p.origLen]).toEqual([1, 2, 60, 70]);
   });
 
+  // pcapng draft, ISB options 5 and 7 (METHODS 1.2 [V]); that the counters run from capture start is from memory [M].
   it('ISB isb_ifdrop + isb_osdrop go into droppedByCapture; counters are cumulative per interface', () => {
     const file = new PcapngBuilder().shb().idb().idb()
       .isb(0, { ifdrop: 5n }).isb(0, { ifdrop: 7n, osdrop: 1n }).isb(1, { osdrop: 2n }).bytes();
@@ -165,6 +170,7 @@ describe('pcapng blocks', () => {
     expect(summary.droppedByCapture).toBe(7 + 1 + 2);
   });
 
+  // pcapng draft, general block structure: unknown blocks are skipped by their length (METHODS 1.2 [V]).
   it('NRB, DSB, custom, local and unknown blocks are skipped by their length', () => {
     const file = new PcapngBuilder().shb().block(4, new Uint8Array(16)).idb().block(0x0a, frame(33))
       .block(0x00000bad, frame(9)).block(0x40000bad, frame(1)).block(0x80001234, frame(5)).block(0x77, new Uint8Array(0))
@@ -183,6 +189,7 @@ describe('pcapng blocks', () => {
     expect((parser as unknown as { carry: Uint8Array }).carry.length).toBe(64 * 1024);
   });
 
+  // pcapng draft, SHB: a section with another major version is not read (METHODS 1.2 [V]).
   it('a section with an unsupported major version is skipped; the next section is read', () => {
     const file = new Uint8Array([
       ...new PcapngBuilder().shb({ major: 2 }).idb().epb(0, 1n, F60).bytes(),
