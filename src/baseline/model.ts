@@ -12,6 +12,10 @@
  * - Learning during an anomaly: `observe(x, t, true)` learns x clipped to the band edge at the FIXED
  *   z = 3 (LEARN_CLIP_Z), whatever alpha the detector uses, so alpha never changes what is learned.
  * Call order per window: `band(t, z)` / `score(x, t)` first (history before t), then `observe(x, t)`.
+ * `band` and `score` first account the silent windows before t (idempotent), so they update lazily
+ * kept state. `markMissing` must be called before any slot is asked about a time after the gap; the
+ * interval list is kept for the bank's lifetime (gaps are rare) and is global to the bank, so use one
+ * bank per input whose outages are independent.
  *
  * BaselineBank keeps every slot in struct-of-arrays typed arrays: 32 octets per host-feature without a
  * seasonal profile (level and deviation Float32; history, missing and active counts Uint32; last
