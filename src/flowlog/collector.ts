@@ -1,0 +1,216 @@
+import { createSocket, type RemoteInfo, type Socket } from 'node:dgram';
+import { createServer, isIPv6, type AddressInfo, type Server, type Socket as TcpSocket } from 'node:net';
+import type { FlowSink } from '../flow/record.js';
+import { StreamSource } from '../ingest/source.js';
+import type { InputProblem } from '../util/problem.js';
+import { ipfixFileStep } from './file-ingest.js';
+import { driveFrames } from './framing.js';
+import { IpfixDecoder } from './ipfix.js';
+import { NetflowV9Decoder } from './netflow9.js';
+import { TemplateBudget, type ExportSession } from './session.js';
+
+/** Where to listen, each `HOST:PORT` (`[v6]:PORT`; a bare `PORT` or `:PORT` binds 127.0.0.1). */
+export interface CollectorListen {
+  ipfixUdp?: string;
+  ipfixTcp?: string;
+  netflowUdp?: string;
+}
+
+export interface ExporterStats {
+  /** `ADDR:PORT` of the exporter (IPv6 in brackets). */
+  exporter: string;
+  format: 'ipfix' | 'netflow9';
+  transport: 'udp' | 'tcp';
+  datagrams: number;
+  messages: number;
+  records: number;
+  flows: number;
+  /** Problems of any kind (bad headers, overruns, caps, ...). */
+  malformed: number;
+  /** Data sets dropped for want of a template. */
+  unknownTemplate: number;
+  /** IPFIX: data records lost by sequence numbers; NetFlow v9: export packets lost. */
+  sequenceLost: number;
+}
+
+export interface CollectorStats {
+  datagrams: number;
+  messages: number;
+  records: number;
+  flows: number;
+  malformed: number;
+  unknownTemplate: number;
+  sequenceLost: number;
+  /** Datagrams or connections refused because too many exporters were already known. */
+  exportersOverCap: number;
+  exporters: ExporterStats[];
+}
+
+export interface CollectorAddresses {
+  ipfixUdp?: AddressInfo;
+  ipfixTcp?: AddressInfo;
+  netflowUdp?: AddressInfo;
+}
+
+export interface CollectorHandle {
+  close(): Promise<void>;
+  stats(): CollectorStats;
+  /** Bound addresses, so callers (tests) can listen on port 0. */
+  addresses(): CollectorAddresses;
+}
+
+/** Exporters (address and port, or TCP connections) tracked at once (ours, no source). */
+export const MAX_EXPORTERS = 4096;
+export const DEFAULT_BIND = '127.0.0.1';
+
+/**
+ * Parses `HOST:PORT`, `[V6]:PORT`, `:PORT` or `PORT`. Without a written host the collector binds
+ * 127.0.0.1: listening on other addresses must be asked for explicitly. Throws a one-line Error.
+ */
+export function parseListen(s: string): { host: string; port: number } {
+  const t = s.trim();
+  let host = DEFAULT_BIND, portText = t;
+  const v6 = /^\[([^\]]+)\]:(\d+)$/.exec(t);
+  if (v6) { host = v6[1]!; portText = v6[2]!; }
+  else if (t.includes(':')) {
+    const i = t.lastIndexOf(':');
+    if (i > 0) host = t.slice(0, i);
+    portText = t.slice(i + 1);
+  }
+  const port = Number(portText);
+  if (!/^\d+$/.test(portText) || port > 65535) throw new Error(`listen address ${JSON.stringify(s)}: expected HOST:PORT`);
+  return { host, port };
+}
+
+function remoteName(address: string, port: number): string {
+  return isIPv6(address) ? `[${address}]:${port}` : `${address}:${port}`;
+}
+
+interface Exporter {
+  name: string;
+  format: 'ipfix' | 'netflow9';
+  transport: 'udp' | 'tcp';
+  session: ExportSession;
+  datagrams: number;
+  ipfix?: IpfixDecoder;
+  v9?: NetflowV9Decoder;
+}
+
+/**
+ * Starts UDP (IPFIX, NetFlow v9) and TCP (IPFIX, framed by the message Length; RFC 7011 section 10.4)
+ * listeners. Templates are scoped per transport session: per exporter address and port for UDP, per
+ * connection for TCP (RFC 7011 section 8). One template budget is shared by all sessions.
+ */
+export async function startCollector(listen: CollectorListen, sink: FlowSink, onProblem?: (p: InputProblem) => void): Promise<CollectorHandle> {
+  const budget = new TemplateBudget();
+  const exporters = new Map<string, Exporter>();
+  const closed: Exporter[] = [];
+  const conns = new Set<TcpSocket>();
+  const sockets: Socket[] = [];
+  let server: Server | undefined;
+  let overCap = 0;
+  const addrs: CollectorAddresses = {};
+
+  const exporter = (key: string, format: Exporter['format'], transport: Exporter['transport']): Exporter | null => {
+    let e = exporters.get(key);
+    if (e) return e;
+    if (exporters.size >= MAX_EXPORTERS) { overCap++; return null; }
+    const name = key.slice(key.indexOf(' ') + 1);
+    if (format === 'ipfix') {
+      const ipfix = new IpfixDecoder(name, name, sink, budget, onProblem);
+      e = { name, format, transport, session: ipfix.session, datagrams: 0, ipfix };
+    } else {
+      const v9 = new NetflowV9Decoder(name, name, sink, budget, onProblem);
+      e = { name, format, transport, session: v9.session, datagrams: 0, v9 };
+    }
+    exporters.set(key, e);
+    return e;
+  };
+
+  const udp = async (spec: string, format: Exporter['format']): Promise<AddressInfo> => {
+    const { host, port } = parseListen(spec);
+    const sock = createSocket(isIPv6(host) ? 'udp6' : 'udp4');
+    sock.on('message', (msg: Buffer, r: RemoteInfo) => {
+      const e = exporter(`${format} ${remoteName(r.address, r.port)}`, format, 'udp');
+      if (!e) return;
+      e.datagrams++;
+      if (e.ipfix) {
+        // one message per datagram (RFC 7011 section 10.3.3); a shorter message leaves the rest unread
+        const used = e.ipfix.decodeMessage(msg, 0, msg.length, 0);
+        if (used > 0 && used < msg.length) e.session.problem('trailing-bytes', used, `${msg.length - used} bytes after the IPFIX message in a datagram`);
+      } else e.v9!.decodePacket(msg, 0, msg.length, 0);
+    });
+    await new Promise<void>((resolve, reject) => {
+      sock.once('error', reject);
+      sock.bind(port, host, () => { sock.off('error', reject); resolve(); });
+    });
+    sock.on('error', (err) => onProblem?.({ file: spec, offset: -1, reason: 'socket-error', message: err.message, fatal: false }));
+    sockets.push(sock);
+    return sock.address();
+  };
+
+  const tcp = async (spec: string): Promise<AddressInfo> => {
+    const { host, port } = parseListen(spec);
+    server = createServer((c) => {
+      const e = exporter(`tcp ${remoteName(c.remoteAddress ?? '?', c.remotePort ?? 0)}`, 'ipfix', 'tcp');
+      if (!e) { c.destroy(); return; }
+      conns.add(c);
+      c.on('error', () => {}); // a reset connection ends like a closed one
+      const src = new StreamSource(e.name, c);
+      void driveFrames(src, ipfixFileStep(e.ipfix!)).then((tail) => {
+        if (tail > 0) e.session.problem('truncated', -1, `connection ended inside an IPFIX message (${tail} bytes left)`);
+      }, (err: Error) => {
+        e.session.problem('connection-error', -1, `connection failed: ${err.message}`);
+      }).finally(() => {
+        conns.delete(c);
+        e.session.finish();
+        e.session.release();
+        exporters.delete(`tcp ${e.name}`);
+        closed.push(e);
+      });
+    });
+    await new Promise<void>((resolve, reject) => {
+      server!.once('error', reject);
+      server!.listen(port, host, () => { server!.off('error', reject); resolve(); });
+    });
+    return server.address() as AddressInfo;
+  };
+
+  try {
+    if (listen.ipfixUdp) addrs.ipfixUdp = await udp(listen.ipfixUdp, 'ipfix');
+    if (listen.ipfixTcp) addrs.ipfixTcp = await tcp(listen.ipfixTcp);
+    if (listen.netflowUdp) addrs.netflowUdp = await udp(listen.netflowUdp, 'netflow9');
+  } catch (err) {
+    for (const s of sockets) s.close();
+    server?.close();
+    throw new Error(`cannot listen: ${(err as Error).message}`);
+  }
+
+  const stats = (): CollectorStats => {
+    const list: ExporterStats[] = [];
+    for (const e of [...closed, ...exporters.values()]) {
+      const c = e.session.counters;
+      list.push({
+        exporter: e.name, format: e.format, transport: e.transport, datagrams: e.datagrams, messages: c.messages,
+        records: c.records, flows: c.flows, malformed: c.problems.total, unknownTemplate: c.unknownTemplateSets,
+        sequenceLost: c.sequenceLost,
+      });
+    }
+    const sum = (k: 'datagrams' | 'messages' | 'records' | 'flows' | 'malformed' | 'unknownTemplate' | 'sequenceLost') =>
+      list.reduce((a, x) => a + x[k], 0);
+    return {
+      datagrams: sum('datagrams'), messages: sum('messages'), records: sum('records'), flows: sum('flows'),
+      malformed: sum('malformed'), unknownTemplate: sum('unknownTemplate'), sequenceLost: sum('sequenceLost'),
+      exportersOverCap: overCap, exporters: list,
+    };
+  };
+
+  const close = async (): Promise<void> => {
+    await Promise.all(sockets.map((s) => new Promise<void>((r) => s.close(() => r()))));
+    for (const c of conns) c.destroy();
+    if (server) await new Promise<void>((r) => server!.close(() => r()));
+    for (const e of exporters.values()) e.session.finish();
+  };
+
+  return { close, stats, addresses: () => ({ ...addrs }) };
+}
