@@ -25,7 +25,10 @@ export interface World {
   sim: Sim;
   rng: Prng;
   seed: number;
+  /** Multiplies connection rates. */
   scale: number;
+  /** Multiplies payload sizes per connection. */
+  volume: number;
   hosts: HostRt[];
   byAddr: Map<string, HostRt>;
   /** Host-table index of every inside address (v4 and v6). */
@@ -39,7 +42,7 @@ export interface World {
 }
 
 /** Builds the host table, then the simulation sized for it (`makeSim` gets the number of addresses). */
-export function buildWorld(makeSim: (hostCount: number) => Sim, rng: Prng, seed: number, scale: number): World {
+export function buildWorld(makeSim: (hostCount: number) => Sim, rng: Prng, seed: number, scale: number, volume: number): World {
   const cache = new EndpointCache();
   const hosts: HostRt[] = [];
   const index = new Map<string, number>();
@@ -53,7 +56,7 @@ export function buildWorld(makeSim: (hostCount: number) => Sim, rng: Prng, seed:
     hosts.push({ spec, ep, idx, ep6, idx6, present: null });
   }
   return {
-    sim: makeSim(addresses.length), rng, seed, scale, hosts, index, addresses, cache,
+    sim: makeSim(addresses.length), rng, seed, scale, volume, hosts, index, addresses, cache,
     byAddr: new Map(hosts.map((h) => [h.spec.addr, h])),
     resolver: cache.get(RESOLVER, true),
     upstream: UPSTREAM_DNS.map((a) => cache.get(a)),
@@ -142,8 +145,8 @@ function startActivity(w: World, h: HostRt, a: ActivitySpec, t: number): void {
   if (proto === 17) {
     actor = new UdpExchange(client, server, 123, port, 48, 48, tConn, rttUs);
   } else {
-    const up = Math.max(60, Math.round(rng.logNormal(a.up[0], a.up[1])));
-    const down = Math.max(60, Math.round(rng.logNormal(a.down[0], a.down[1])));
+    const up = Math.max(60, Math.round(w.volume * rng.logNormal(a.up[0], a.up[1])));
+    const down = Math.max(60, Math.round(w.volume * rng.logNormal(a.down[0], a.down[1])));
     const speed = rng.logNormal(1, 0.4);
     actor = new TcpSession({
       client, server, sport: ephemeralPort(rng), dport: port, up, down,
@@ -193,7 +196,7 @@ export function addBackground(w: World): void {
     }
     if (h.spec.role === 'imaging') {
       const s = new UdpStream(h.ep, w.cache.get(TELEMETRY.addr), 40000 + (h.idx % 100), TELEMETRY.port, TELEMETRY.payload,
-        TELEMETRY.everySec * 1e6 / Math.min(1, w.scale * 4), w.sim.startUs + w.rng.int(10e6), w.sim.endUs, 6);
+        TELEMETRY.everySec * 1e6, w.sim.startUs + w.rng.int(10e6), w.sim.endUs, 6);
       mark(s, h.idx, -1);
       w.sim.add(s);
     }

@@ -116,7 +116,7 @@ function normalBytesPerMinute(w: World, addr: string): number {
   const h = w.byAddr.get(addr)!;
   let perHour = 0;
   for (const a of ACTIVITIES[h.spec.role]) perHour += a.perHour * a.up[0] * Math.exp(a.up[1] ** 2 / 2);
-  return (perHour * w.scale) / 60 + (TELEMETRY.payload + 28) * 6;
+  return (perHour * w.scale * w.volume) / 60 + ((TELEMETRY.payload + 28) * 60) / TELEMETRY.everySec;
 }
 
 /**
@@ -163,6 +163,7 @@ export function addEpisode(w: World, slot: Slot, n: number): { truth: TruthEpiso
         Uint8Array.from(answer), ephemeralPort(rng), startUs, Math.floor(durUs / targets.length), 700);
       tag(a, CAST.horizontalScanner, '');
       sim.add(a);
+      for (const x of existing) sim.markActive(w.index.get(x)!); // they answer with RST
       return { truth: ep('scan', 'horizontal-scan', [CAST.horizontalScanner], existing) };
     }
     case 'syn-flood': {
@@ -188,7 +189,7 @@ export function addEpisode(w: World, slot: Slot, n: number): { truth: TruthEpiso
     case 'upload': {
       const host = w.byAddr.get(CAST.uploader)!;
       const peer = w.cache.get(CAST.uploadPeer);
-      const bytes = Math.max(20e6, Math.round(200e6 * w.scale));
+      const bytes = Math.max(10e6, Math.round(200e6 * w.scale * w.volume));
       const dns = new DnsLookup(host.ep, w.resolver, w.upstream[0]!, ephemeralPort(rng), startUs - 50_000, true, sim);
       tag(dns, CAST.uploader, '');
       sim.add(dns);

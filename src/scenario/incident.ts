@@ -16,6 +16,7 @@ export interface IncidentOptions {
   truthFile: string;
   hours?: number;
   scale?: number;
+  volume?: number;
   snaplen?: number;
   linkType?: 1 | 101;
   episodes?: readonly IncidentEpisode[];
@@ -35,7 +36,7 @@ export function generateIncident(o: IncidentOptions): IncidentResult {
   const endMs = startMs + Math.round(hours * HOUR);
   const writer = new PcapWriter(o.dataFile, { snaplen: o.snaplen ?? 96, linkType: o.linkType ?? 1 });
   const rng = new Prng(o.seed);
-  const world = buildWorld((n) => new Sim(writer, rng, startMs * 1000, endMs * 1000, n, o.linkType ?? 1), rng, o.seed, scale);
+  const world = buildWorld((n) => new Sim(writer, rng, startMs * 1000, endMs * 1000, n, o.linkType ?? 1), rng, o.seed, scale, o.volume ?? 1);
   const sim = world.sim;
   addBackground(world);
   const planned = planEpisodes(startMs, hours, o.episodes ?? INCIDENT_EPISODES);

@@ -12,8 +12,10 @@ export interface ScenarioOptions {
   outDir: string;
   /** Span in hours: incident default 6, rhythm default 192 (8 days). */
   hours?: number;
-  /** Multiplies every benign rate (and the flood and upload volumes); default 1. */
+  /** Multiplies every benign connection rate and the SYN flood rate; default 1. */
   scale?: number;
+  /** Incident only: multiplies payload octets per connection (and the upload); default 1. */
+  volume?: number;
   /** Base name of the files: NAME.pcap / NAME.jsonl and NAME.truth.json; default `incident` / `rhythm` with `truth.json`. */
   name?: string;
 }
@@ -28,7 +30,7 @@ export async function generateScenario(opts: ScenarioOptions): Promise<{ dataFil
   const dataFile = join(opts.outDir, `${opts.name ?? opts.kind}.${ext}`);
   const truthFile = join(opts.outDir, opts.name ? `${opts.name}.truth.json` : 'truth.json');
   const common = { seed: opts.seed, dataFile, truthFile, hours: opts.hours, scale: opts.scale };
-  if (opts.kind === 'incident') generateIncident(common);
+  if (opts.kind === 'incident') generateIncident({ ...common, volume: opts.volume });
   else generateRhythm(common);
   return { dataFile, truthFile };
 }

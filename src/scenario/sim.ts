@@ -102,6 +102,11 @@ export class Sim {
     if (a.hostB >= 0) this.touch(a.hostB, t, a.benign);
   }
 
+  /** Counts a host as present in the data (an episode's answering target). */
+  markActive(host: number): void {
+    if (host >= 0) this.active[host] = 1;
+  }
+
   private touch(host: number, t: number, benign: boolean): void {
     this.active[host] = 1;
     if (benign) this.benignHours[host * this.hours + Math.floor((t - this.startUs) / 3.6e9)] = 1;
