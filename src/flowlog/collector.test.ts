@@ -97,3 +97,16 @@ describe('the same flows from a file, stdin, UDP and TCP', () => {
     expect(() => parseListen('host:port')).toThrow(/HOST:PORT/);
   });
 });
+
+describe('runCollectorForFlows (the `flows --ipfix-listen` path)', () => {
+  it('runs for --duration seconds and returns the counters; rejects a bad duration', async () => {
+    const { runCollectorForFlows, formatCollectorSummary } = await import('./cli-options.js');
+    const got: FlowRecord[] = [];
+    const t0 = Date.now();
+    const stats = await runCollectorForFlows({ netflowListen: '127.0.0.1:0', duration: '0.2' }, (r) => got.push(r));
+    expect(Date.now() - t0).toBeGreaterThanOrEqual(150);
+    expect(stats.flows).toBe(0);
+    expect(formatCollectorSummary(stats)).toMatch(/^collector: 0 flows from 0 exporters/);
+    await expect(runCollectorForFlows({ ipfixListen: '127.0.0.1:0', duration: 'soon' }, () => {})).rejects.toThrow(/--duration/);
+  });
+});
