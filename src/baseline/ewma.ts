@@ -155,7 +155,9 @@ export class EwmaBand {
     return this.windows;
   }
 
+  /** Learns one window's value; a non-finite x is ignored. */
   observe(x: number): void {
+    if (!Number.isFinite(x)) return;
     this.rule.step(this.level, this.dev, this.windows, this.rule.forward(x), out);
     this.level = out[0]!;
     this.dev = out[1]!;

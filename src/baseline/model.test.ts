@@ -33,6 +33,7 @@ describe('FeatureBaseline trust rules', () => {
     expect(f.observe(5, T0 + MIN)).toBe(true);
     expect(f.observe(5, T0 + MIN)).toBe(false);
     expect(f.observe(5, T0)).toBe(false);
+    expect(f.observe(Number.NaN, T0 + 2 * MIN)).toBe(false);
     expect(f.n).toBe(1);
   });
 
@@ -171,5 +172,17 @@ describe('BaselineBank', () => {
     a.observe(7, 25, T0 + 300 * MIN);
     b.observe(3, 25, T0 + 300 * MIN);
     expect(b.slotToBytes(3)).toEqual(a.slotToBytes(7));
+  });
+});
+
+describe('FeatureBaseline views of a bank', () => {
+  it('a view reads and writes its bank slot', () => {
+    const bank = new BaselineBank({ ...counts, features: 3 });
+    const view = new FeatureBaseline(bank, bank.slotOf(2, 1));
+    for (let i = 0; i < 20; i++) view.observe(40, T0 + i * MIN);
+    expect(bank.historyOf(bank.slotOf(2, 1))).toBe(20);
+    expect(bank.historyOf(bank.slotOf(2, 0))).toBe(0);
+    expect(view.band(T0 + 20 * MIN, 3)).toEqual(bank.band(bank.slotOf(2, 1), T0 + 20 * MIN, 3));
+    expect(view.hasSeasonalProfile).toBe(false);
   });
 });
