@@ -20,8 +20,8 @@ const specLen = new Uint16Array(65_536);
 
 /**
  * Where the export packet starting at `off` ends: v9 has no length field, so walk the FlowSets until
- * the next header (FlowSet id 9 is reserved, so 00 09 at a FlowSet boundary is the next version field)
- * or the end. Returns -1 when more bytes are needed (and `atEof` is false).
+ * the next header (FlowSet id 9 is reserved, so 00 09 at a FlowSet boundary is the next version field),
+ * any other reserved id (not a FlowSet boundary: the framer resynchronises there), or the end. Returns -1 when more bytes are needed (and `atEof` is false).
  */
 export function v9PacketEnd(b: Uint8Array, off: number, avail: number, atEof: boolean): number {
   let p = off + V9_HEADER;
@@ -29,7 +29,8 @@ export function v9PacketEnd(b: Uint8Array, off: number, avail: number, atEof: bo
   while (p - off < V9_MAX_PACKET) {
     if (p + FLOWSET_HEADER > avail) return atEof ? avail : -1;
     const id = (b[p]! << 8) | b[p + 1]!;
-    if (id === V9_VERSION) return p;
+    // 9 is the next header's version; other reserved ids (2..255) mean we are not at a FlowSet boundary
+    if (id === V9_VERSION || (id > OPTIONS_FLOWSET && id < MIN_DATA_FLOWSET)) return p;
     const len = (b[p + 2]! << 8) | b[p + 3]!;
     if (len < FLOWSET_HEADER) return p;
     if (p + len > avail) return atEof ? avail : -1;

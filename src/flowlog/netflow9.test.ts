@@ -1,0 +1,57 @@
+import { describe, expect, it } from 'vitest';
+import { ingestNetflowV9 } from './file-ingest.js';
+import { NetflowV9Decoder } from './netflow9.js';
+import { concat, runIngest, Wire } from './testing.js';
+
+/** v9 export packet (RFC 3954 section 5.1): version 9, count, sysUpTime, unix_secs, sequence, Source ID. */
+function packet(seq: number, uptime: number, secs: number, ...flowsets: Uint8Array[]): Uint8Array {
+  const w = new Wire().u16(9).u16(flowsets.length).u32(uptime).u32(secs).u32(seq).u32(5);
+  for (const f of flowsets) w.raw(f);
+  return w.bytes();
+}
+const flowset = (id: number, body: Uint8Array) => new Wire().u16(id).u16(4 + body.length).raw(body).bytes();
+// IPV4_SRC_ADDR(8)/4, IPV4_DST_ADDR(12)/4, PROTOCOL(4)/1, FIRST_SWITCHED(22)/4, LAST_SWITCHED(21)/4
+const template = flowset(0, new Wire().u16(256).u16(5).u16(8).u16(4).u16(12).u16(4).u16(4).u16(1).u16(22).u16(4).u16(21).u16(4).bytes());
+const record = (first: number, last: number) => new Wire().ip4('192.0.2.1').ip4('198.51.100.1').u8(17).u32(first).u32(last).bytes();
+
+describe('NetFlow v9 (RFC 3954)', () => {
+  it('times from FIRST/LAST_SWITCHED relative to sysUpTime (METHODS check value 20)', async () => {
+    const data = flowset(256, concat(record(40_000, 90_000), new Uint8Array(3)));
+    const { recs, problems } = await runIngest(ingestNetflowV9, packet(0, 100_000, 1_700_000_000, template, data), 9, 'r.nf9');
+    expect(problems).toEqual([]);
+    expect(recs[0]).toMatchObject({ start: 1_699_999_940_000, end: 1_699_999_990_000, exporter: 'r.nf9/5', outcome: 'n/a' });
+  });
+
+  it('options templates give scope and option lengths in octets (RFC 3954 section 6.1); their records are not flows', () => {
+    // scope System(1)/4; option SAMPLING_INTERVAL(34)/4; then 2 octets of padding
+    const opt = flowset(1, new Wire().u16(300).u16(4).u16(4).u16(1).u16(4).u16(34).u16(4).u16(0).bytes());
+    const odata = flowset(300, new Wire().u32(1).u32(100).bytes());
+    const got: unknown[] = [];
+    const dec = new NetflowV9Decoder('t', 't', (r) => got.push(r));
+    const p = packet(0, 1, 1, opt, odata);
+    dec.decodePacket(p, 0, p.length, 0);
+    expect(got).toEqual([]);
+    expect(dec.counters.optionsRecords).toBe(1);
+    expect(dec.counters.problems.total).toBe(0);
+  });
+
+  it('hostile: reserved FlowSet id and a length-65535 field in a datagram', () => {
+    const dec = new NetflowV9Decoder('t', 't', () => {});
+    const reasons: string[] = [];
+    const d = new NetflowV9Decoder('t', 't', () => {}, undefined, (p) => reasons.push(p.reason));
+    const p = packet(0, 1, 1, flowset(7, new Uint8Array(4)), flowset(0, new Wire().u16(257).u16(1).u16(8).u16(0xffff).bytes()));
+    d.decodePacket(p, 0, p.length, 0);
+    dec.decodePacket(p, 0, 3, 0);
+    expect(reasons).toEqual(['bad-set-id', 'bad-template']);
+    expect(dec.counters.problems.toObject()).toEqual({ truncated: 1 });
+  });
+
+  it('hostile file: junk between packets is skipped to the next header; a FlowSet past the end is reported', async () => {
+    const good = packet(1, 100_000, 1_700_000_000, template, flowset(256, record(1, 2)));
+    const junk = new Uint8Array([0, 5, 0, 0, 0xaa]); // reads as reserved FlowSet id 5: not a boundary
+    const over = packet(2, 1, 1, new Wire().u16(256).u16(500).bytes());
+    const { recs, problems } = await runIngest(ingestNetflowV9, concat(good, junk, good, over), 11);
+    expect(recs).toHaveLength(2);
+    expect(problems.map((p) => [p.reason, p.offset])).toEqual([['bad-header', good.length], ['set-overrun', 2 * good.length + junk.length + 20]]);
+  });
+});
