@@ -51,6 +51,12 @@ describe('flow-export goldens (reference: scapy 2.5 scapy.layers.netflow)', () =
       const lines = out.stdout.split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as FlowRecord);
       expect(lines).toEqual(expected(name));
     });
+    it(`tidewatch flows - < ${name} prints the same records, labelled stdin`, () => {
+      const out = spawnSync(process.execPath, [cli, 'flows', '-'], { encoding: 'utf8', input: readFileSync(join(dir, name)) });
+      const lines = out.stdout.split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as FlowRecord);
+      const want = expected(name).map((r) => ({ ...r, exporter: `stdin${r.exporter.slice(r.exporter.lastIndexOf('/'))}` }));
+      expect(lines).toEqual(want);
+    });
   }
 
   const python = '/usr/bin/python3';
