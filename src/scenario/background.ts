@@ -20,6 +20,16 @@ export interface HostRt {
   present: number[] | null;
 }
 
+/** Explicit attack sizes; each defaults to a value derived from scale and volume (docs/scenario.md). */
+export interface AttackSizes {
+  /** SYN flood rate, SYNs per second. */
+  synPerSec?: number;
+  /** UDP surge, bytes per minute. */
+  surgeBytesPerMin?: number;
+  /** Upload size, bytes. */
+  uploadBytes?: number;
+}
+
 /** Shared state of one incident run. */
 export interface World {
   sim: Sim;
@@ -29,6 +39,7 @@ export interface World {
   scale: number;
   /** Multiplies payload sizes per connection. */
   volume: number;
+  attacks: AttackSizes;
   hosts: HostRt[];
   byAddr: Map<string, HostRt>;
   /** Host-table index of every inside address (v4 and v6). */
@@ -42,7 +53,8 @@ export interface World {
 }
 
 /** Builds the host table, then the simulation sized for it (`makeSim` gets the number of addresses). */
-export function buildWorld(makeSim: (hostCount: number) => Sim, rng: Prng, seed: number, scale: number, volume: number): World {
+export function buildWorld(makeSim: (hostCount: number) => Sim, rng: Prng, seed: number, scale: number, volume: number,
+  attacks: AttackSizes = {}): World {
   const cache = new EndpointCache();
   const hosts: HostRt[] = [];
   const index = new Map<string, number>();
@@ -56,7 +68,7 @@ export function buildWorld(makeSim: (hostCount: number) => Sim, rng: Prng, seed:
     hosts.push({ spec, ep, idx, ep6, idx6, present: null });
   }
   return {
-    sim: makeSim(addresses.length), rng, seed, scale, volume, hosts, index, addresses, cache,
+    sim: makeSim(addresses.length), rng, seed, scale, volume, attacks, hosts, index, addresses, cache,
     byAddr: new Map(hosts.map((h) => [h.spec.addr, h])),
     resolver: cache.get(RESOLVER, true),
     upstream: UPSTREAM_DNS.map((a) => cache.get(a)),
@@ -100,7 +112,8 @@ class ActivitySpawner extends Actor {
     const t = this.next;
     const w = this.w;
     const f = (this.a.clinic ? clinicActivity(t / 1000) : 1) * hourNoise(w.seed, this.h.idx, Math.floor(t / 3.6e9));
-    if (isPresent(this.h, t) && w.rng.float() < f / NOISE_CAP) startActivity(w, this.h, this.a, t);
+    const u = w.rng.float(); // drawn even when absent, so presence changes do not shift the stream
+    if (u < f / NOISE_CAP && isPresent(this.h, t)) startActivity(w, this.h, this.a, t);
     this.next = t + 1 + Math.round(w.rng.exp(this.meanGapUs));
     return true;
   }
@@ -135,7 +148,7 @@ function startActivity(w: World, h: HostRt, a: ActivitySpec, t: number): void {
   let tConn = t;
   if (a.dns && rng.chance(0.6)) {
     const miss = rng.chance(DNS_MISS_RATE);
-    const dns = new DnsLookup(h.ep, w.resolver, miss ? rng.pick(w.upstream) : null, ephemeralPort(rng), t, !rng.chance(0.005), w.sim);
+    const dns = new DnsLookup(h.ep, w.resolver, miss ? rng.pick(w.upstream) : null, ephemeralPort(rng), t, !rng.chance(0.005), rng);
     mark(dns, h.idx, w.index.get(RESOLVER)!);
     w.sim.add(dns);
     tConn = t + 2000 + (miss ? 40_000 : 0) + rng.int(20_000);
@@ -152,7 +165,7 @@ function startActivity(w: World, h: HostRt, a: ActivitySpec, t: number): void {
       client, server, sport: ephemeralPort(rng), dport: port, up, down,
       rounds: a.rounds[0] + rng.int(a.rounds[1] - a.rounds[0] + 1), rttUs,
       upRate: rate * (serverIdx < 0 ? 0.4 : 1) * speed, downRate: rate * speed, fate: fate(rng),
-    }, tConn, w.sim);
+    }, tConn, rng);
   }
   mark(actor, clientIdx, serverIdx);
   w.sim.add(actor);
@@ -186,17 +199,21 @@ class EchoSpawner extends Actor {
   }
 }
 
+/** A guest that must be on the Wi-Fi over [startUs, endUs) (the incident's scanning phone). */
+export interface Stay { addr: string; startUs: number; endUs: number }
+
 /** Puts every benign background process of every host into the simulation. */
-export function addBackground(w: World): void {
+export function addBackground(w: World, stays: readonly Stay[]): void {
   for (const h of w.hosts) {
     if (h.spec.role === 'guest-phone') planPresence(w, h);
+    for (const s of stays) if (s.addr === h.spec.addr) h.present = [...(h.present ?? []), s.startUs, s.endUs];
     for (const a of ACTIVITIES[h.spec.role]) w.sim.add(new ActivitySpawner(w, h, a));
     for (const c of ECHO_CHECKS) {
       if (c.from === h.spec.role) w.sim.add(new EchoSpawner(w, h, w.cache.get(c.to, w.index.has(c.to)), c.perHour * w.scale));
     }
     if (h.spec.role === 'imaging') {
       const s = new UdpStream(h.ep, w.cache.get(TELEMETRY.addr), 40000 + (h.idx % 100), TELEMETRY.port, TELEMETRY.payload,
-        TELEMETRY.everySec * 1e6, w.sim.startUs + w.rng.int(10e6), w.sim.endUs, 6);
+        TELEMETRY.everySec * 1e6, w.sim.startUs + w.rng.int(10e6), w.sim.endUs, 6, w.rng);
       mark(s, h.idx, -1);
       w.sim.add(s);
     }

@@ -63,6 +63,22 @@ describe('incident scenario', async () => {
     expect(sha(c.dataFile)).not.toBe(sha(a.dataFile));
   });
 
+  it('keeps the background identical with or without the episodes', async () => {
+    const clean = await generateScenario({ ...OPTS, seed: 11, outDir: join(dir, 'clean'), episodes: [] });
+    const cleanTruth = JSON.parse(readFileSync(clean.truthFile, 'utf8')) as Truth;
+    expect(cleanTruth.episodes).toEqual([]);
+    const key = (p: Pkt) => `${p.t} ${p.src} ${p.dst} ${p.proto} ${p.sport} ${p.dport} ${p.flags} ${p.ipLen}`;
+    const cleanKeys = readPcap(clean.dataFile).pkts.map(key);
+    // every packet of the clean run is in the attacked run; the extra ones are the episodes'
+    const all = new Set(pkts.map(key));
+    expect(cleanKeys.filter((k) => !all.has(k))).toEqual([]);
+    const cleanSet = new Set(cleanKeys);
+    const extra = pkts.filter((p) => !cleanSet.has(key(p)));
+    const inSomeEpisode = (p: Pkt) => truth.episodes.some((e) => p.t >= Date.parse(e.start) - 1000 && p.t <= Date.parse(e.end) + 60_000);
+    expect(extra.length).toBe(pkts.length - cleanKeys.length);
+    expect(extra.every(inSomeEpisode)).toBe(true);
+  });
+
   it('writes time-ordered packets inside the truth span, snaplen 96, only scenario addresses', () => {
     expect(snaplen).toBe(96);
     expect(pkts.length).toBeGreaterThan(5000);

@@ -1,7 +1,7 @@
 import { PcapWriter } from '../capture/writer.js';
-import { addBackground, buildWorld } from './background.js';
-import { addEpisode } from './episodes.js';
-import { HOUR, INSIDE_CIDRS, SCENARIO_NAME } from './larkspur.js';
+import { addBackground, buildWorld, type AttackSizes } from './background.js';
+import { CAST, addEpisode } from './episodes.js';
+import { HOUR, INSIDE_CIDRS, MINUTE, SCENARIO_NAME } from './larkspur.js';
 import { Prng } from './prng.js';
 import { INCIDENT_EPISODES, planEpisodes, type IncidentEpisode } from './schedule.js';
 import { Sim } from './sim.js';
@@ -17,6 +17,7 @@ export interface IncidentOptions {
   hours?: number;
   scale?: number;
   volume?: number;
+  attacks?: AttackSizes;
   snaplen?: number;
   linkType?: 1 | 101;
   episodes?: readonly IncidentEpisode[];
@@ -36,9 +37,12 @@ export function generateIncident(o: IncidentOptions): IncidentResult {
   const endMs = startMs + Math.round(hours * HOUR);
   const writer = new PcapWriter(o.dataFile, { snaplen: o.snaplen ?? 96, linkType: o.linkType ?? 1 });
   const rng = new Prng(o.seed);
-  const world = buildWorld((n) => new Sim(writer, rng, startMs * 1000, endMs * 1000, n, o.linkType ?? 1), rng, o.seed, scale, o.volume ?? 1);
+  const world = buildWorld((n) => new Sim(writer, startMs * 1000, endMs * 1000, n, o.linkType ?? 1), rng, o.seed, scale, o.volume ?? 1, o.attacks);
   const sim = world.sim;
-  addBackground(world);
+  // the scanning phone is on the Wi-Fi from 20 minutes before its slot until 10 minutes after, whether or
+  // not the scan is included, so the background does not depend on the episode list
+  const scanSlot = planEpisodes(startMs, hours, INCIDENT_EPISODES).find((s) => s.name === 'vertical-scan')!;
+  addBackground(world, [{ addr: CAST.verticalScanner, startUs: (scanSlot.start - 20 * MINUTE) * 1000, endUs: (scanSlot.end + 10 * MINUTE) * 1000 }]);
   const planned = planEpisodes(startMs, hours, o.episodes ?? INCIDENT_EPISODES);
   const added = planned.map((slot, i) => addEpisode(world, slot, i + 1));
   try {

@@ -1,9 +1,13 @@
 import { mkdirSync } from 'node:fs';
 import { join } from 'node:path';
+import type { AttackSizes } from './background.js';
 import { generateIncident } from './incident.js';
 import { generateRhythm } from './rhythm.js';
+import type { IncidentEpisode } from './schedule.js';
 
 export { writeFlowLog, flowRecordLine } from './flowlog.js';
+export type { AttackSizes } from './background.js';
+export { INCIDENT_EPISODES, type IncidentEpisode } from './schedule.js';
 export type { Truth, TruthEpisode, TruthBenign, Family } from './truth.js';
 
 export interface ScenarioOptions {
@@ -16,6 +20,10 @@ export interface ScenarioOptions {
   scale?: number;
   /** Incident only: multiplies payload octets per connection (and the upload); default 1. */
   volume?: number;
+  /** Incident only: which episodes to include (default all, in their fixed order); [] gives the clean background. */
+  episodes?: readonly IncidentEpisode[];
+  /** Incident only: explicit attack sizes instead of the ones derived from scale and volume. */
+  attacks?: AttackSizes;
   /** Base name of the files: NAME.pcap / NAME.jsonl and NAME.truth.json; default `incident` / `rhythm` with `truth.json`. */
   name?: string;
 }
@@ -30,7 +38,7 @@ export async function generateScenario(opts: ScenarioOptions): Promise<{ dataFil
   const dataFile = join(opts.outDir, `${opts.name ?? opts.kind}.${ext}`);
   const truthFile = join(opts.outDir, opts.name ? `${opts.name}.truth.json` : 'truth.json');
   const common = { seed: opts.seed, dataFile, truthFile, hours: opts.hours, scale: opts.scale };
-  if (opts.kind === 'incident') generateIncident({ ...common, volume: opts.volume });
+  if (opts.kind === 'incident') generateIncident({ ...common, volume: opts.volume, attacks: opts.attacks, episodes: opts.episodes });
   else generateRhythm(common);
   return { dataFile, truthFile };
 }

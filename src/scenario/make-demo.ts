@@ -8,7 +8,14 @@ import { statSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { generateScenario } from './index.js';
 
-export const DEMO = { kind: 'incident', seed: 60, hours: 1, scale: 0.3, volume: 0.05, name: 'larkspur-demo' } as const;
+/**
+ * Episode sizes sit above the default minimum effect sizes of the detectors (2 MB a window for a
+ * volume surge, 1 MB a window to a new peer), which the 5 % payload volume would otherwise undercut.
+ */
+export const DEMO = {
+  kind: 'incident', seed: 60, hours: 1, scale: 0.3, volume: 0.05, name: 'larkspur-demo',
+  attacks: { synPerSec: 40, surgeBytesPerMin: 3e6, uploadBytes: 15e6 },
+} as const;
 
 const outDir = process.argv[2] ?? fileURLToPath(new URL('../../../captures/', import.meta.url));
 const { dataFile, truthFile } = await generateScenario({ ...DEMO, outDir });

@@ -1,4 +1,5 @@
 import { ACK, FIN, PSH, RST, SYN, type Endpoint } from './packets.js';
+import type { Prng } from './prng.js';
 import { Actor, type Sim } from './sim.js';
 
 /** How a TCP connection attempt ends (benign rates are set by the caller, about 1 % failures). */
@@ -40,11 +41,11 @@ export class TcpSession extends Actor {
   private readonly upGap: number;
   private readonly downGap: number;
 
-  constructor(private readonly p: TcpPlan, startUs: number, sim: Sim) {
+  constructor(private readonly p: TcpPlan, startUs: number, private readonly rng: Prng) {
     super();
     this.next = startUs;
-    this.cseq = sim.rng.u32();
-    this.sseq = sim.rng.u32();
+    this.cseq = rng.u32();
+    this.sseq = rng.u32();
     this.roundsLeft = Math.max(1, p.rounds);
     this.mss = p.client.v6 ? 1440 : 1460;
     this.upGap = (this.mss / p.upRate) * 1e6;
@@ -94,7 +95,7 @@ export class TcpSession extends Actor {
         this.left -= seg;
         this.segs++;
         this.tSeg = this.next;
-        const gap = (up ? this.upGap : this.downGap) * (0.8 + 0.4 * sim.rng.float());
+        const gap = (up ? this.upGap : this.downGap) * (0.8 + 0.4 * this.rng.float());
         if ((this.segs & 1) === 0 || this.left === 0) {
           this.state = up ? T.UpAck : T.DownAck;
           this.next += Math.round(Math.min(p.rttUs, gap * 0.5));
@@ -116,13 +117,13 @@ export class TcpSession extends Actor {
           this.state = T.Down;
           this.left = Math.max(1, Math.round(p.down / Math.max(1, p.rounds)));
           this.segs = 0;
-          this.next += p.rttUs + Math.round(sim.rng.exp(2000));
+          this.next += p.rttUs + Math.round(this.rng.exp(2000));
         } else if (--this.roundsLeft > 0) {
           this.startRound();
-          this.next += Math.round(sim.rng.exp(150_000));
+          this.next += Math.round(this.rng.exp(150_000));
         } else {
           this.state = T.Fin1;
-          this.next += Math.round(sim.rng.exp(50_000)) + 1;
+          this.next += Math.round(this.rng.exp(50_000)) + 1;
         }
         return true;
       }
@@ -164,12 +165,12 @@ export class DnsLookup extends Actor {
   private readonly fwdPort: number;
 
   constructor(private readonly client: Endpoint, private readonly resolver: Endpoint, private readonly upstream: Endpoint | null,
-    private readonly sport: number, startUs: number, private readonly answered: boolean, sim: Sim) {
+    private readonly sport: number, startUs: number, private readonly answered: boolean, private readonly rng: Prng) {
     super();
     this.next = startUs;
-    this.qLen = 28 + sim.rng.int(30);
-    this.aLen = this.qLen + 16 + sim.rng.int(180);
-    this.fwdPort = 1024 + sim.rng.int(64000);
+    this.qLen = 28 + rng.int(30);
+    this.aLen = this.qLen + 16 + rng.int(180);
+    this.fwdPort = 1024 + rng.int(64000);
   }
 
   fire(sim: Sim): boolean {
@@ -178,12 +179,12 @@ export class DnsLookup extends Actor {
         sim.udp(this, this.client, this.resolver, this.sport, 53, this.qLen);
         if (!this.answered) return false;
         this.state = this.upstream ? D.Forward : D.Answer;
-        this.next += this.upstream ? 150 : 300 + sim.rng.int(400);
+        this.next += this.upstream ? 150 : 300 + this.rng.int(400);
         return true;
       case D.Forward:
         sim.udp(this, this.resolver, this.upstream!, this.fwdPort, 53, this.qLen + 11);
         this.state = D.Upstream;
-        this.next += 15_000 + sim.rng.int(25_000);
+        this.next += 15_000 + this.rng.int(25_000);
         return true;
       case D.Upstream:
         sim.udp(this, this.upstream!, this.resolver, 53, this.fwdPort, this.aLen + 11);
@@ -252,7 +253,7 @@ export class UdpStream extends Actor {
   private replyDue = false;
   constructor(private readonly src: Endpoint, private readonly dst: Endpoint, private readonly sport: number,
     private readonly dport: number, private readonly payload: number, private readonly gapUs: number,
-    startUs: number, private readonly endUs: number, private readonly replyEvery: number) {
+    startUs: number, private readonly endUs: number, private readonly replyEvery: number, private readonly rng: Prng) {
     super();
     this.next = startUs;
   }
@@ -266,7 +267,7 @@ export class UdpStream extends Actor {
     }
     sim.udp(this, this.src, this.dst, this.sport, this.dport, this.payload);
     this.sent++;
-    const gap = Math.max(1, Math.round(this.gapUs * (0.8 + 0.4 * sim.rng.float())));
+    const gap = Math.max(1, Math.round(this.gapUs * (0.8 + 0.4 * this.rng.float())));
     this.tNext = this.next + gap;
     if (this.replyEvery > 0 && this.sent % this.replyEvery === 0) {
       this.replyDue = true;

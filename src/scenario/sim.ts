@@ -1,6 +1,5 @@
 import type { PcapWriter } from '../capture/writer.js';
 import { FrameBuilder, type Endpoint } from './packets.js';
-import type { Prng } from './prng.js';
 
 /**
  * Something that sends packets at points in time: a connection, a DNS exchange, a spawner that starts
@@ -30,7 +29,7 @@ export class Sim {
   readonly active: Uint8Array;
   readonly hours: number;
 
-  constructor(readonly writer: PcapWriter, readonly rng: Prng, readonly startUs: number, readonly endUs: number,
+  constructor(readonly writer: PcapWriter, readonly startUs: number, readonly endUs: number,
     readonly hostCount: number, linkType: 1 | 101) {
     this.fb = new FrameBuilder(linkType, writer.snaplen);
     this.hours = Math.ceil((endUs - startUs) / 3.6e9);
