@@ -1,0 +1,60 @@
+/**
+ * `npm run bench`: generates the benchmark capture once, then runs each bench in `benches` in its own
+ * child process and prints one table. Targets (the project's): >= 3.5 M packets/s for the capture path,
+ * >= 5x the pcap-parser packet loop, peak RSS <= 300 MB. Other benches (replay, IPFIX) add entries.
+ * Options: --packets N (default 3 M), --keep (leave the capture in the temp folder).
+ */
+import { spawnSync } from 'node:child_process';
+import { mkdtempSync, rmSync, statSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { DEFAULT_GEN, generateCapture } from './gen-capture.js';
+
+interface Measure { packets: number; ms: number; maxRssKB: number; flows?: number; note?: string }
+interface Bench { name: string; input: 'capture'; run(file: string): Measure }
+
+const CHILD = fileURLToPath(new URL('./bench-child.js', import.meta.url));
+
+function child(mode: string, file: string): Measure {
+  const r = spawnSync(process.execPath, [CHILD, mode, file], { encoding: 'utf8', maxBuffer: 1 << 20 });
+  if (r.status !== 0) throw new Error(`bench ${mode} failed (${r.status}): ${r.stderr.trim().split('\n').slice(-3).join(' | ')}`);
+  return JSON.parse(r.stdout.trim()) as Measure;
+}
+
+/** The benches, in table order; `baseline` names the row the others are compared with. */
+export const benches: Bench[] = [
+  { name: 'capture -> flows (decode, flow table, JSON lines)', input: 'capture', run: (f) => child('flows', f) },
+  { name: 'pcap-parser packet loop (npm, count only)', input: 'capture', run: (f) => child('pcap-parser', f) },
+];
+const BASELINE = 'pcap-parser packet loop (npm, count only)';
+
+const args = process.argv.slice(2);
+const packetsArg = args.indexOf('--packets');
+const packets = packetsArg >= 0 ? Number(args[packetsArg + 1]) : DEFAULT_GEN.packets;
+const dir = mkdtempSync(join(tmpdir(), 'tidewatch-bench-'));
+const file = join(dir, 'bench.pcap');
+try {
+  let t = Date.now();
+  const gen = generateCapture(file, { ...DEFAULT_GEN, packets });
+  const size = statSync(file).size;
+  process.stdout.write(`capture: ${gen.packets} packets, ${gen.flows} generated flows, ${(size / 1e6).toFixed(1)} MB, written in ${((Date.now() - t) / 1000).toFixed(1)} s (${file})\n\n`);
+  const rows: [string, Measure][] = [];
+  for (const b of benches) {
+    t = Date.now();
+    rows.push([b.name, b.run(file)]);
+  }
+  const base = rows.find(([n]) => n === BASELINE)?.[1];
+  const pps = (m: Measure) => m.packets / (m.ms / 1000);
+  const head = ['bench', 'packets', 'seconds', 'M packets/s', 'MB/s', 'flow records', 'peak RSS MB', 'vs pcap-parser'];
+  const table = rows.map(([name, m]) => [
+    name, String(m.packets), (m.ms / 1000).toFixed(2), (pps(m) / 1e6).toFixed(2), (size / 1e6 / (m.ms / 1000)).toFixed(0),
+    m.flows === undefined ? '-' : String(m.flows), (m.maxRssKB / 1024).toFixed(0), base ? `${(pps(m) / pps(base)).toFixed(1)}x` : '-',
+  ]);
+  const widths = head.map((h, i) => Math.max(h.length, ...table.map((r) => r[i]!.length)));
+  const line = (r: string[]) => r.map((c, i) => (i === 0 ? c.padEnd(widths[i]!) : c.padStart(widths[i]!))).join('  ');
+  process.stdout.write(`${line(head)}\n${widths.map((w) => '-'.repeat(w)).join('  ')}\n${table.map(line).join('\n')}\n`);
+  process.stdout.write('\ntargets: capture path >= 3.5 M packets/s, >= 5x pcap-parser, peak RSS <= 300 MB\n');
+} finally {
+  if (!args.includes('--keep')) rmSync(dir, { recursive: true, force: true });
+}
