@@ -25,10 +25,13 @@ export function wantsCollector(opts: CollectorCliOptions): boolean {
 
 /**
  * Runs the collector for `flows`: records go to `sink` as they arrive, until SIGINT/SIGTERM or
- * `--duration` seconds. Resolves with the collector's counters for the summary. Throws a one-line
- * Error for a bad option or an address that cannot be bound.
+ * `--duration` seconds. `tick` is called once a second while running (a chunked writer flushes there,
+ * so live output is not held back). Resolves with the collector's counters for the summary. Throws a
+ * one-line Error for a bad option or an address that cannot be bound.
  */
-export async function runCollectorForFlows(opts: CollectorCliOptions, sink: FlowSink, onProblem?: (p: InputProblem) => void): Promise<CollectorStats> {
+export async function runCollectorForFlows(
+  opts: CollectorCliOptions, sink: FlowSink, onProblem?: (p: InputProblem) => void, tick?: () => void,
+): Promise<CollectorStats> {
   const listen: CollectorListen = {};
   if (opts.ipfixListen) { listen.ipfixUdp = opts.ipfixListen; listen.ipfixTcp = opts.ipfixListen; }
   if (opts.netflowListen) listen.netflowUdp = opts.netflowListen;
@@ -38,9 +41,11 @@ export async function runCollectorForFlows(opts: CollectorCliOptions, sink: Flow
     if (!Number.isFinite(seconds) || seconds <= 0) throw new Error(`--duration ${JSON.stringify(opts.duration)}: expected a positive number of seconds`);
   }
   const handle = await startCollector(listen, sink, onProblem);
+  const ticker = tick ? setInterval(tick, 1000) : undefined;
   await new Promise<void>((resolve) => {
     const done = () => {
       clearTimeout(timer);
+      clearInterval(ticker);
       process.off('SIGINT', done);
       process.off('SIGTERM', done);
       resolve();
