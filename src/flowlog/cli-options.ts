@@ -1,7 +1,7 @@
 import type { Command } from 'commander';
 import type { FlowSink } from '../flow/record.js';
 import type { InputProblem } from '../util/problem.js';
-import { startCollector, type CollectorListen, type CollectorStats } from './collector.js';
+import { startCollector, type CollectorAddresses, type CollectorListen, type CollectorStats } from './collector.js';
 
 /** What `addCollectorOptions` adds to a command's parsed options. */
 export interface CollectorCliOptions {
@@ -23,15 +23,21 @@ export function wantsCollector(opts: CollectorCliOptions): boolean {
   return Boolean(opts.ipfixListen || opts.netflowListen);
 }
 
+/** Optional hooks of a collector run. */
+export interface CollectorRunHooks {
+  onProblem?: (p: InputProblem) => void;
+  /** Called once a second while running (a chunked writer flushes there, so live output is not held back). */
+  tick?: () => void;
+  /** Called once bound, with the actual addresses (port 0 picks a free port). */
+  onListening?: (a: CollectorAddresses) => void;
+}
+
 /**
  * Runs the collector for `flows`: records go to `sink` as they arrive, until SIGINT/SIGTERM or
- * `--duration` seconds. `tick` is called once a second while running (a chunked writer flushes there,
- * so live output is not held back). Resolves with the collector's counters for the summary. Throws a
- * one-line Error for a bad option or an address that cannot be bound.
+ * `--duration` seconds. Resolves with the collector's counters for the summary. Throws a one-line
+ * Error for a bad option or an address that cannot be bound.
  */
-export async function runCollectorForFlows(
-  opts: CollectorCliOptions, sink: FlowSink, onProblem?: (p: InputProblem) => void, tick?: () => void,
-): Promise<CollectorStats> {
+export async function runCollectorForFlows(opts: CollectorCliOptions, sink: FlowSink, hooks: CollectorRunHooks = {}): Promise<CollectorStats> {
   const listen: CollectorListen = {};
   if (opts.ipfixListen) { listen.ipfixUdp = opts.ipfixListen; listen.ipfixTcp = opts.ipfixListen; }
   if (opts.netflowListen) listen.netflowUdp = opts.netflowListen;
@@ -40,8 +46,9 @@ export async function runCollectorForFlows(
     seconds = Number(opts.duration);
     if (!Number.isFinite(seconds) || seconds <= 0) throw new Error(`--duration ${JSON.stringify(opts.duration)}: expected a positive number of seconds`);
   }
-  const handle = await startCollector(listen, sink, onProblem);
-  const ticker = tick ? setInterval(tick, 1000) : undefined;
+  const handle = await startCollector(listen, sink, hooks.onProblem);
+  hooks.onListening?.(handle.addresses());
+  const ticker = hooks.tick ? setInterval(hooks.tick, 1000) : undefined;
   await new Promise<void>((resolve) => {
     const done = () => {
       clearTimeout(timer);
@@ -56,6 +63,16 @@ export async function runCollectorForFlows(
   });
   await handle.close();
   return handle.stats();
+}
+
+/** `ipfix/udp 127.0.0.1:4739, ...`: what a run listens on, for stderr. */
+export function formatListening(a: CollectorAddresses): string {
+  const at = (x: { address: string; port: number }) => (x.address.includes(':') ? `[${x.address}]:${x.port}` : `${x.address}:${x.port}`);
+  const parts: string[] = [];
+  if (a.ipfixUdp) parts.push(`ipfix/udp ${at(a.ipfixUdp)}`);
+  if (a.ipfixTcp) parts.push(`ipfix/tcp ${at(a.ipfixTcp)}`);
+  if (a.netflowUdp) parts.push(`netflow9/udp ${at(a.netflowUdp)}`);
+  return `listening on ${parts.join(', ')}`;
 }
 
 /** One line per exporter plus a total, for stderr. */

@@ -100,10 +100,13 @@ describe('the same flows from a file, stdin, UDP and TCP', () => {
 
 describe('runCollectorForFlows (the `flows --ipfix-listen` path)', () => {
   it('runs for --duration seconds and returns the counters; rejects a bad duration', async () => {
-    const { runCollectorForFlows, formatCollectorSummary } = await import('./cli-options.js');
+    const { runCollectorForFlows, formatCollectorSummary, formatListening } = await import('./cli-options.js');
     const got: FlowRecord[] = [];
     const t0 = Date.now();
-    const stats = await runCollectorForFlows({ netflowListen: '127.0.0.1:0', duration: '0.2' }, (r) => got.push(r));
+    let listening = '';
+    const stats = await runCollectorForFlows({ netflowListen: '127.0.0.1:0', duration: '0.2' }, (r) => got.push(r),
+      { onListening: (a) => { listening = formatListening(a); } });
+    expect(listening).toMatch(/^listening on netflow9\/udp 127\.0\.0\.1:\d+$/);
     expect(Date.now() - t0).toBeGreaterThanOrEqual(150);
     expect(stats.flows).toBe(0);
     expect(formatCollectorSummary(stats)).toMatch(/^collector: 0 flows from 0 exporters/);
