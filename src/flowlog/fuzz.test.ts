@@ -53,3 +53,22 @@ describe('fuzzing the flow-export decoders (fast-check)', () => {
     }), { numRuns: 200 });
   });
 });
+
+describe('fuzzing the flow-log readers (fast-check)', () => {
+  const line = fc.oneof(
+    fc.string({ maxLength: 80 }),
+    fc.constantFrom('"', '""', '\r', ',', '{}', '[]', 'null', '{"src":"192.0.2.1","dst":"192.0.2.2","proto":"tcp","start":1}'),
+  );
+  it('CSV and JSON Lines: arbitrary lines never throw; every bad line is a problem with a line number', async () => {
+    const { ingestCsv, ingestJsonl } = await import('./textlog.js');
+    await fc.assert(fc.asyncProperty(fc.array(line, { maxLength: 20 }), fc.integer({ min: 1, max: 50 }), async (lines, chunk) => {
+      const text = new TextEncoder().encode(['start,proto,src,dst', ...lines].join('\n'));
+      for (const fn of [ingestCsv, ingestJsonl]) {
+        const problems: number[] = [];
+        const s = await fn(memorySource(text, chunk), () => {}, { ...DEFAULT_INGEST, onProblem: (p) => problems.push(p.line ?? -1) });
+        expect(s.flows).toBeLessThanOrEqual(lines.length + 1);
+        for (const l of problems) expect(l).toBeGreaterThanOrEqual(1);
+      }
+    }), { numRuns: 300 });
+  });
+});
