@@ -42,6 +42,13 @@ export interface BaselineOptions extends EwmaOptions {
   seasonal?: Omit<SeasonalOptions, 'spreadFloor'> | false;
   /** Non-zero windows before a seasonal profile is allocated (default 60). */
   seasonalAfterActive?: number;
+  /**
+   * What a window without observe() means for the EWMA band: `zeros` (default) learns a zero;
+   * `skip` leaves the band to the host's active windows (an intermittent host's band then describes
+   * what it does when it is active, instead of a mixture with its silence). Seasonal profiles learn
+   * silent windows as zeros either way: silence at an hour is part of the daily rhythm.
+   */
+  silence?: 'zeros' | 'skip';
   /** Initial slot capacity (default 1024); the bank doubles as slots are used. */
   initialCapacity?: number;
 }
@@ -75,6 +82,7 @@ export class BaselineBank {
   readonly maxMissingFraction: number;
   readonly seasonalAfterActive: number;
   readonly seasonalConfig: SeasonalConfig | null;
+  readonly skipSilence: boolean;
   private capacity = 0;
   private level = new Float32Array(0);
   private dev = new Float32Array(0);
@@ -99,6 +107,7 @@ export class BaselineBank {
     this.readyAfter = o.readyAfter ?? 12;
     this.maxMissingFraction = o.maxMissingFraction ?? 0.1;
     this.seasonalAfterActive = o.seasonalAfterActive ?? 60;
+    this.skipSilence = o.silence === 'skip';
     const rule = this.rule;
     this.seasonalConfig =
       o.seasonal === false ? null : new SeasonalConfig({ ...o.seasonal, spreadFloor: (level) => rule.floor(level) });
@@ -280,6 +289,11 @@ export class BaselineBank {
   }
 
   private zeros(slot: number, fromMs: number, k: number): void {
+    if (this.skipSilence) {
+      const id = this.profileOf[slot]!;
+      if (id >= 0) this.profiles[id]!.observeZeros(fromMs, k, this.windowMs);
+      return;
+    }
     this.rule.zeros(this.level[slot]!, this.dev[slot]!, this.history[slot]!, k, stepOut);
     this.level[slot] = stepOut[0]!;
     this.dev[slot] = stepOut[1]!;

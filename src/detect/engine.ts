@@ -2,7 +2,7 @@ import { FEATURE_COUNT, F } from '../window/features.js';
 import type { ClosedWindow, WindowAggregator } from '../window/aggregator.js';
 import type { Finding } from './finding.js';
 import type { HostContext } from './context.js';
-import { HostModel } from './model.js';
+import { Baselines, HostModel } from './model.js';
 import { thresholdsFor, DEFAULT_FLOORS, type Floors, type Thresholds } from './thresholds.js';
 import { trwStep } from './trw.js';
 import { volumeSurge } from './volume-surge.js';
@@ -33,6 +33,7 @@ export interface EngineOptions {
   enabled?: readonly string[];
   /** Models of hosts idle this long are dropped (counted); seasonal history needs days. */
   idleEvictMs?: number;
+  windowMs: number;
   /** Learn only (train): run no detector. */
   learnOnly?: boolean;
 }
@@ -43,6 +44,7 @@ export interface EngineOptions {
  */
 export class DetectorEngine {
   readonly models = new Map<number, HostModel>();
+  readonly baselines: Baselines;
   readonly thresholds: Thresholds;
   readonly floors: Floors;
   runWindows = 0;
@@ -64,6 +66,7 @@ export class DetectorEngine {
       return d;
     });
     this.idleEvictMs = opts.idleEvictMs ?? 9 * 86_400_000;
+    this.baselines = new Baselines(opts.windowMs);
   }
 
   onWindow(w: ClosedWindow): Finding[] {
@@ -72,7 +75,7 @@ export class DetectorEngine {
     const name = (id: number) => this.agg.addresses.name(id);
     for (const acc of w.hosts) {
       let model = this.models.get(acc.hostId);
-      if (!model) { model = new HostModel(); this.models.set(acc.hostId, model); }
+      if (!model) { model = new HostModel(acc.hostId, this.baselines); this.models.set(acc.hostId, model); }
       const values = acc.values(this.values);
       trwStep(model, acc.pairOk, acc.pairFail, this.thresholds.trwLogUpper, this.thresholds.trwLogLower);
       this.anomalous.fill(0);
@@ -93,7 +96,10 @@ export class DetectorEngine {
           }
         }
       }
-      model.learn(values, w.start, this.anomalous);
+      this.baselines.learn(acc.hostId, values, w.start, this.anomalous);
+      if (model.activeWindows === 0) model.firstActiveStart = w.start;
+      model.activeWindows++;
+      model.lastActiveStart = w.start;
       this.stats.hostWindows++;
     }
     this.stats.findings += out.length;

@@ -20,7 +20,7 @@ export const CONTINUE_Z = 2;
 /** TRW's fixed continuation threshold: the paper's alpha = 0.01, beta = 0.99, eta1 = 99. */
 export const TRW_LOG_CONTINUE = Math.log(99);
 export const MAX_ALPHA = 0.1;
-export const VOLUME_TESTS = 6;
+export const VOLUME_TESTS = 8;
 export const TRW_BETA = 0.99;
 
 export interface Thresholds {
@@ -72,7 +72,7 @@ export interface Floors {
 
 export const DEFAULT_FLOORS: Floors = {
   bytes: 2_000_000,
-  pkts: 3_000,
+  pkts: 10_000,
   flows: 150,
   surgeRatio: 4,
   scanFailed: 20,

@@ -6,6 +6,7 @@
 export const FEATURES = [
   'flows_out', 'pkts_out', 'bytes_out',
   'flows_in', 'pkts_in', 'bytes_in',
+  'nontcp_bytes_out', 'nontcp_bytes_in',
   'distinct_peers', 'distinct_dst_ports', 'distinct_peer_ports',
   'max_ports_per_peer', 'max_peers_per_port',
   'distinct_sources',

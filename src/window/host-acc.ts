@@ -1,13 +1,14 @@
-import { DistinctCounter } from '../sketch/small-set.js';
+import { HyperLogLog } from '../sketch/hll.js';
 import { EntropyCounter } from '../sketch/entropy.js';
 import { TopK } from '../sketch/topk.js';
-import { hashPair } from '../sketch/hash.js';
 import type { FlowRecord } from '../flow/record.js';
 import { F, FEATURE_COUNT } from './features.js';
 
 /** Bound on exact (peer, port) pairs per host-window; past it counts continue in `pairCount`. */
 const PAIR_SET_CAP = 8192;
 const SAMPLE_FLOWS = 5;
+/** HyperLogLog precision of per-window distinct counts: 1.6 % standard error, exact up to 256. */
+const HLL_P = 12;
 
 /**
  * One host's accumulators for one window. Created per host per window (never per flow); the
@@ -16,6 +17,8 @@ const SAMPLE_FLOWS = 5;
 export class HostAcc {
   flowsOut = 0; pktsOut = 0; bytesOut = 0;
   flowsIn = 0; pktsIn = 0; bytesIn = 0;
+  /** UDP, ICMP and other non-TCP octets: floods are mostly these, routine bulk transfers are TCP. */
+  nontcpOut = 0; nontcpIn = 0;
   attempts = 0; rejected = 0; unanswered = 0; synOnlyOut = 0;
   failedIn = 0; synOnlyIn = 0; icmpUnreachIn = 0;
   newPeers = 0; newPeerBytes = 0;
@@ -24,11 +27,11 @@ export class HostAcc {
   /** Largest new-and-rare destination by bytes this window (for unusual-destination evidence). */
   newPeerTop = -1; newPeerTopBytes = 0;
 
-  peers: DistinctCounter | null = null;
-  dports: DistinctCounter | null = null;
-  sources: DistinctCounter | null = null;
+  peers: HyperLogLog | null = null;
+  dports: HyperLogLog | null = null;
+  sources: HyperLogLog | null = null;
   pairSet: Set<number> | null = null;
-  pairCount: DistinctCounter | null = null;
+  pairCount: HyperLogLog | null = null;
   portsPerPeer: TopK | null = null;
   peersPerPort: TopK | null = null;
   entDstPorts: EntropyCounter | null = null;
@@ -47,8 +50,9 @@ export class HostAcc {
     this.flowsOut++;
     this.pktsOut += r.pkts; this.bytesOut += r.bytes;
     this.pktsIn += r.rpkts; this.bytesIn += r.rbytes;
-    (this.peers ??= new DistinctCounter()).add(peerId);
-    (this.dports ??= new DistinctCounter()).add(r.dport);
+    if (r.proto !== 6) { this.nontcpOut += r.bytes; this.nontcpIn += r.rbytes; }
+    (this.peers ??= new HyperLogLog(HLL_P)).add(peerId);
+    (this.dports ??= new HyperLogLog(HLL_P)).add(r.dport);
     (this.entDstPorts ??= new EntropyCounter()).add(r.dport);
     (this.entDstAddrs ??= new EntropyCounter()).add(peerId);
     (this.entSrcPorts ??= new EntropyCounter()).add(r.sport);
@@ -59,7 +63,7 @@ export class HostAcc {
     const fresh = !set.has(pairKey);
     if (fresh) {
       if (set.size < PAIR_SET_CAP) set.add(pairKey);
-      (this.pairCount ??= new DistinctCounter()).add(hashPair(peerId, r.dport));
+      (this.pairCount ??= new HyperLogLog(HLL_P)).addPair(peerId, r.dport);
       (this.portsPerPeer ??= new TopK(64)).add(peerId);
       (this.peersPerPort ??= new TopK(64)).add(r.dport);
     }
@@ -83,7 +87,8 @@ export class HostAcc {
     this.flowsIn++;
     this.pktsIn += r.pkts; this.bytesIn += r.bytes;
     this.pktsOut += r.rpkts; this.bytesOut += r.rbytes;
-    (this.sources ??= new DistinctCounter()).add(peerId);
+    if (r.proto !== 6) { this.nontcpIn += r.bytes; this.nontcpOut += r.rbytes; }
+    (this.sources ??= new HyperLogLog(HLL_P)).add(peerId);
     (this.entSrcAddrs ??= new EntropyCounter()).add(peerId);
     (this.topPeers ??= new TopK(32)).add(peerId);
     (this.topPorts ??= new TopK(32)).add(r.dport);
@@ -108,6 +113,7 @@ export class HostAcc {
     out.fill(0, 0, FEATURE_COUNT);
     out[F.flows_out] = this.flowsOut; out[F.pkts_out] = this.pktsOut; out[F.bytes_out] = this.bytesOut;
     out[F.flows_in] = this.flowsIn; out[F.pkts_in] = this.pktsIn; out[F.bytes_in] = this.bytesIn;
+    out[F.nontcp_bytes_out] = this.nontcpOut; out[F.nontcp_bytes_in] = this.nontcpIn;
     out[F.distinct_peers] = this.peers?.count() ?? 0;
     out[F.distinct_dst_ports] = this.dports?.count() ?? 0;
     out[F.distinct_peer_ports] = this.pairCount?.count() ?? 0;
