@@ -144,6 +144,8 @@ export class IpfixDecoder {
         s.problem('template-overrun', at, `template ${tid} declares ${count} fields but its set ends after ${i}; rest of set skipped`);
         return;
       }
+      const old = d.templates.get(tid);
+      if (old && old.isOptions === options && old.sameDefinition(b.subarray(p, q))) { p = q; continue; } // a refresh
       const plan = new DecodePlan(tid, specPen.subarray(0, count), specId.subarray(0, count), specLen.subarray(0, count),
         options, scope, b.slice(p, q));
       if (plan.minLen === 0) s.problem('bad-template', at, `template ${tid} describes zero-length records; ignored`);

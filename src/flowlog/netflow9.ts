@@ -168,6 +168,8 @@ export class NetflowV9Decoder {
         return;
       }
     }
+    const old = d.templates.get(tid);
+    if (old && old.isOptions === scope > 0 && old.sameDefinition(b.subarray(from, to))) return; // a refresh
     const plan = new DecodePlan(tid, specPen.subarray(0, count), specId.subarray(0, count), specLen.subarray(0, count),
       scope > 0, scope, b.slice(from, to));
     if (plan.minLen === 0) s.problem('bad-template', at, `template ${tid} describes zero-length records; ignored`);
