@@ -161,18 +161,26 @@ function startActivity(w: World, h: HostRt, a: ActivitySpec, t: number): void {
     const up = Math.max(60, Math.round(w.volume * rng.logNormal(a.up[0], a.up[1])));
     const down = Math.max(60, Math.round(w.volume * rng.logNormal(a.down[0], a.down[1])));
     const speed = rng.logNormal(1, 0.4);
+    const upRate = rate * (serverIdx < 0 ? 0.4 : 1) * speed, downRate = rate * speed;
+    const rounds = a.rounds[0] + rng.int(a.rounds[1] - a.rounds[0] + 1);
     actor = new TcpSession({
-      client, server, sport: ephemeralPort(rng), dport: port, up, down,
-      rounds: a.rounds[0] + rng.int(a.rounds[1] - a.rounds[0] + 1), rttUs,
-      upRate: rate * (serverIdx < 0 ? 0.4 : 1) * speed, downRate: rate * speed, fate: fate(rng),
+      client, server, sport: ephemeralPort(rng), dport: port, up, down, rounds, rttUs, upRate, downRate, fate: fate(rng),
     }, tConn, rng);
+    if (a.label) {
+      // listed until a window after the transfer should have finished
+      const durUs = (up / upRate + down / downRate) * 1e6 + 4 * rounds * rttUs;
+      w.benign.push({ label: a.label, hosts: [client.text, server.text], start: isoUs(tConn), end: isoUs(tConn + durUs + 60e6) });
+    }
   }
   mark(actor, clientIdx, serverIdx);
   w.sim.add(actor);
   if (a.service === 'churn') {
-    const iso = (us: number) => new Date(Math.floor(us / 1000)).toISOString();
-    w.benign.push({ label: 'new-outside-service', hosts: [h.ep.text, server.text], start: iso(tConn), end: iso(tConn + 60e6) });
+    w.benign.push({ label: 'new-outside-service', hosts: [h.ep.text, server.text], start: isoUs(tConn), end: isoUs(tConn + 60e6) });
   }
+}
+
+function isoUs(us: number): string {
+  return new Date(Math.floor(us / 1000)).toISOString();
 }
 
 function mark(a: Actor, hostA: number, hostB: number): void {

@@ -104,6 +104,8 @@ export interface ActivitySpec {
   dns: boolean;
   /** Follows clinic hours (false: servers' own housekeeping, steady all day). */
   clinic: boolean;
+  /** Large benign transfers are listed in the truth's `benign` periods under this label. */
+  label?: string;
 }
 
 function act(service: ActivitySpec['service'], perHour: number, up: readonly [number, number], down: readonly [number, number],
@@ -113,6 +115,8 @@ function act(service: ActivitySpec['service'], perHour: number, up: readonly [nu
 }
 
 const CHURN = act('churn', 0.05, [900, 0.4], [12_000, 0.8]);
+const labelled = (a: ActivitySpec, label: string): ActivitySpec => ({ ...a, label });
+const UPDATES = labelled(act('updates', 0.5, [2000, 0.3], [5_000_000, 0.8], [1, 1], false), 'software-update');
 
 export const ACTIVITIES: Record<RoleName, readonly ActivitySpec[]> = {
   'reception': [
@@ -133,12 +137,12 @@ export const ACTIVITIES: Record<RoleName, readonly ActivitySpec[]> = {
     CHURN,
   ],
   'imaging': [
-    act('smb', 3, [4_000_000, 0.5], [20_000, 0.5], [1, 2]),
-    act('imagingCloud', 1, [2_000_000, 0.5], [10_000, 0.5]),
+    labelled(act('smb', 3, [4_000_000, 0.5], [20_000, 0.5], [1, 2]), 'imaging-transfer'),
+    labelled(act('imagingCloud', 1, [2_000_000, 0.5], [10_000, 0.5]), 'imaging-transfer'),
     act('db', 6, [800, 0.5], [10_000, 0.6], [1, 3]),
   ],
   'guest-phone': [
-    act('video', 3, [2000, 0.3], [1_500_000, 0.8]),
+    labelled(act('video', 3, [2000, 0.3], [1_500_000, 0.8]), 'guest-video'),
     act('social', 15, [3000, 0.6], [80_000, 1.0], [1, 3]),
     act('web', 5, [1000, 0.4], [150_000, 1.0]),
     CHURN,
@@ -146,11 +150,11 @@ export const ACTIVITIES: Record<RoleName, readonly ActivitySpec[]> = {
   'resolver': [act('ntp', 4, [48, 0], [48, 0], [1, 1], false)],
   'file-server': [
     act('ntp', 4, [48, 0], [48, 0], [1, 1], false),
-    act('updates', 0.5, [2000, 0.3], [5_000_000, 0.8], [1, 1], false),
+    UPDATES,
   ],
   'records-db': [
     act('ntp', 4, [48, 0], [48, 0], [1, 1], false),
-    act('updates', 0.5, [2000, 0.3], [5_000_000, 0.8], [1, 1], false),
+    UPDATES,
   ],
   'backup-server': [act('ntp', 4, [48, 0], [48, 0], [1, 1], false)],
 };

@@ -14,7 +14,7 @@ import { generateScenario } from './index.js';
  */
 export const DEMO = {
   kind: 'incident', seed: 60, hours: 1, scale: 0.3, volume: 0.05, name: 'larkspur-demo',
-  attacks: { synPerSec: 40, surgeBytesPerMin: 3e6, uploadBytes: 15e6 },
+  attacks: { synPerSec: 40, surgeBytesPerMin: 3e6, uploadBytes: 12e6 },
 } as const;
 
 const outDir = process.argv[2] ?? fileURLToPath(new URL('../../../captures/', import.meta.url));

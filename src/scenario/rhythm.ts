@@ -131,6 +131,7 @@ export function generateRhythm(o: RhythmOptions): RhythmResult {
     const durMs = 3 * rtt + ((up + down) / rate) * 1000 + (rounds - 1) * 150;
     tcpFlow(t, src, dst, svc?.port ?? 443, up, down, durMs, src.includes(':'));
     if (!svc) benign.push({ label: 'new-outside-service', hosts: [h.addr, dst], start: iso(t), end: iso(t + 60_000) });
+    if (a.label) benign.push({ label: a.label, hosts: [src, dst], start: iso(t), end: iso(t + durMs + 60_000) });
   };
 
   // background: every role activity as a thinned Poisson process
