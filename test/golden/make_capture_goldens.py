@@ -27,14 +27,15 @@ import json
 import logging
 import os
 import struct
+import zlib
 from decimal import Decimal
 
 import dpkt
-from scapy.layers.inet import ICMP, IP, TCP, UDP, fragment
+from scapy.layers.inet import ICMP, IP, TCP, UDP, IPOption_NOP, IPOption_RR, fragment
 from scapy.layers.inet6 import (ICMPv6DestUnreach, ICMPv6EchoReply, ICMPv6EchoRequest, IPv6,
                                 IPv6ExtHdrDestOpt, IPv6ExtHdrFragment, IPv6ExtHdrHopByHop,
                                 IPv6ExtHdrRouting)
-from scapy.layers.l2 import CookedLinux, CookedLinuxV2, Dot1AD, Dot1Q, Ether, Loopback
+from scapy.layers.l2 import ARP, LLC, STP, CookedLinux, CookedLinuxV2, Dot1AD, Dot1Q, Dot3, Ether, Loopback
 from scapy.packet import Raw
 from scapy.utils import PcapNgReader, RawPcapWriter, rdpcap
 
@@ -289,6 +290,33 @@ def golden_big_endian():
     return pkts
 
 
+def golden_fcs():
+    """Frames that still carry their FCS; the pcap LinkType word says so (0x24000001)."""
+    pkts = udp_exchange(LT_ETHERNET, '192.0.2.130', '198.51.100.130', 55001, 53, t=100_000)
+    pkts += tcp_session(LT_ETHERNET, '192.0.2.130', '198.51.100.131', 55002, 8000, t=200_000)
+    return [(t, ethernet_fcs(data)) for t, data in pkts]
+
+
+def golden_non_ip():
+    """ARP and an 802.3/LLC spanning-tree frame around one UDP exchange: only the UDP becomes a flow."""
+    arp_req = Ether(src=MAC_A, dst='ff:ff:ff:ff:ff:ff') / ARP(op=1, hwsrc=MAC_A, psrc='192.0.2.140',
+                                                             pdst='192.0.2.1')
+    arp_rep = Ether(src=MAC_B, dst=MAC_A) / ARP(op=2, hwsrc=MAC_B, psrc='192.0.2.1', hwdst=MAC_A,
+                                                pdst='192.0.2.140')
+    bpdu = Dot3(src=MAC_B, dst='01:80:c2:00:00:00') / LLC(dsap=0x42, ssap=0x42, ctrl=3) / STP()
+    pkts = [(100_000, bytes(arp_req)), (100_200, bytes(arp_rep)), (150_000, bytes(bpdu))]
+    pkts += udp_exchange(LT_ETHERNET, '192.0.2.140', '198.51.100.140', 56001, 53, t=200_000)
+    return pkts
+
+
+def golden_ipv4_options():
+    """IPv4 headers longer than 20 octets (IHL 6 and 10): ports sit after the options."""
+    a, b = '192.0.2.150', '198.51.100.150'
+    with_nops = IP(src=a, dst=b, id=150, options=[IPOption_NOP()] * 4) / UDP(sport=57001, dport=53) / Raw(b'q' * 10)
+    with_rr = IP(src=b, dst=a, id=151, options=[IPOption_RR(routers=['0.0.0.0'] * 4)]) / UDP(sport=53, dport=57001) / Raw(b'a' * 30)
+    return [(100_000, frame(LT_ETHERNET, with_nops)), (100_500, frame(LT_ETHERNET, with_rr, outbound=True))]
+
+
 # --------------------------------------------------------------------------------------------
 # Part 2: writing files
 # --------------------------------------------------------------------------------------------
@@ -307,26 +335,40 @@ def write_pcap(path, linktype, pkts, endian='<', nano=False, snaplen=65535):
     w.close()
 
 
-def pcapng_block(block_type, body):
-    """METHODS.md 1.2: type, total length, body padded to 32 bits, total length again (little-endian)."""
+def pcapng_block(block_type, body, order='<'):
+    """METHODS.md 1.2: type, total length, body padded to 32 bits, total length again."""
     body += b'\x00' * (-len(body) % 4)
     total = 12 + len(body)
-    return struct.pack('<II', block_type, total) + body + struct.pack('<I', total)
+    return struct.pack(order + 'II', block_type, total) + body + struct.pack(order + 'I', total)
 
 
-def pcapng_option(code, value):
-    return struct.pack('<HH', code, len(value)) + value + b'\x00' * (-len(value) % 4)
+def pcapng_option(code, value, order='<'):
+    return struct.pack(order + 'HH', code, len(value)) + value + b'\x00' * (-len(value) % 4)
+
+
+def pcapng_shb(order='<'):
+    return pcapng_block(0x0A0D0D0A, struct.pack(order + 'IHHq', 0x1A2B3C4D, 1, 0, -1)
+                        + pcapng_option(4, b'tidewatch make_capture_goldens.py', order)
+                        + pcapng_option(0, b'', order), order)
+
+
+def pcapng_idb(linktype, snaplen, options, order='<'):
+    body = struct.pack(order + 'HHI', linktype, 0, snaplen)
+    body += b''.join(pcapng_option(code, value, order) for code, value in options)
+    return pcapng_block(1, body + pcapng_option(0, b'', order), order)
+
+
+def pcapng_epb(iface, ticks, data, order='<'):
+    body = struct.pack(order + 'IIIII', iface, ticks >> 32, ticks & 0xFFFFFFFF, len(data), len(data)) + data
+    return pcapng_block(6, body, order)
 
 
 def write_pcapng_two_interfaces(path):
     """SHB; IDB 0 = Ethernet, if_tsresol 6 (µs); IDB 1 = raw IP, if_tsresol 9 (ns), snaplen 0 (no limit);
     EPBs interleaved from both interfaces. Returns nothing; the expectation reads the file back."""
-    out = [pcapng_block(0x0A0D0D0A, struct.pack('<IHHq', 0x1A2B3C4D, 1, 0, -1)
-                        + pcapng_option(4, b'tidewatch make_capture_goldens.py') + pcapng_option(0, b''))]
-    out.append(pcapng_block(1, struct.pack('<HHI', LT_ETHERNET, 0, 65535) + pcapng_option(2, b'eth0')
-                            + pcapng_option(9, b'\x06') + pcapng_option(0, b'')))
-    out.append(pcapng_block(1, struct.pack('<HHI', LT_RAW, 0, 0) + pcapng_option(2, b'tun0')
-                            + pcapng_option(9, b'\x09') + pcapng_option(0, b'')))
+    out = [pcapng_shb(),
+           pcapng_idb(LT_ETHERNET, 65535, [(2, b'eth0'), (9, b'\x06')]),
+           pcapng_idb(LT_RAW, 0, [(2, b'tun0'), (9, b'\x09')])]
     eth = udp_exchange(LT_ETHERNET, '192.0.2.100', '198.51.100.100', 52001, 53, t=100_000)
     eth += tcp_session(LT_ETHERNET, '192.0.2.100', '198.51.100.101', 52002, 8000, t=150_000)
     raw = udp_exchange(LT_RAW, '10.99.0.1', '10.99.0.2', 52003, 4789, t=120_000)
@@ -338,11 +380,59 @@ def write_pcapng_two_interfaces(path):
             ticks = (T0 * 1_000_000) + off_us
         else:
             ticks = (T0 * 1_000_000 + off_us) * 1000 + 321  # sub-µs part only the ns interface can carry
-        body = struct.pack('<IIIII', iface, ticks >> 32, ticks & 0xFFFFFFFF, len(data), len(data)) + data
-        body += b'\x00' * (-len(data) % 4)
-        out.append(pcapng_block(6, body))
+        out.append(pcapng_epb(iface, ticks, data))
     with open(path, 'wb') as f:
         f.write(b''.join(out))
+
+
+DOC_PEN = 32473  # the Private Enterprise Number reserved for documentation (RFC 5612)
+
+
+def write_pcapng_sections(path):
+    """Two sections. Section 1, little-endian: IDB 0 Ethernet without if_tsresol (so µs), a Name
+    Resolution Block, EPBs, an Interface Statistics Block and a Custom Block, all but the EPBs to be
+    skipped. Section 2, big-endian: its own IDB 0 (interface ids restart per section), Ethernet,
+    if_tsresol 0x8A (2^-10 s ticks) and if_tsoffset 1700000000 s. One UDP flow has its request in
+    section 1 and its answer in section 2, so the flow table must not reset between sections."""
+    s1 = udp_exchange(LT_ETHERNET, '192.0.2.110', '198.51.100.110', 53001, 53, t=100_000)
+    across = udp_exchange(LT_ETHERNET, '192.0.2.110', '198.51.100.111', 53002, 53, t=200_000)
+    nrb_value = bytes([198, 51, 100, 110]) + b'ns.example\x00'  # nrb_record_ipv4: address, NUL-ended name
+    nrb = struct.pack('<HH', 1, len(nrb_value)) + nrb_value + b'\x00' * (-len(nrb_value) % 4)
+    nrb += struct.pack('<HH', 0, 0)  # nrb_record_end
+    out = [pcapng_shb(), pcapng_idb(LT_ETHERNET, 65535, [(2, b'eth0')]), pcapng_block(4, nrb)]
+    for off_us, data in s1 + across[:1]:
+        out.append(pcapng_epb(0, T0 * 1_000_000 + off_us, data))
+    isb = struct.pack('<III', 0, 0, 0) + pcapng_option(4, struct.pack('<Q', 3)) + pcapng_option(0, b'')
+    out += [pcapng_block(5, isb), pcapng_block(0x00000BAD, struct.pack('<I', DOC_PEN) + b'skip me')]
+
+    order, offset = '>', 1700000000
+    out += [pcapng_shb(order),
+            pcapng_idb(LT_ETHERNET, 65535, [(2, b'eth1'), (9, b'\x8a'),
+                                            (14, struct.pack('>q', offset))], order)]
+    s2 = [(250_000 + across[1][0] - across[0][0], across[1][1])]  # the answer, about 251 ms in
+    s2 += tcp_session(LT_ETHERNET, '192.0.2.110', '198.51.100.112', 53003, 8000, t=300_000)
+    for off_us, data in s2:
+        ticks = ((T0 - offset) * 1_000_000 + off_us) * 1024 // 1_000_000  # 1/1024 s, rounded down
+        out.append(pcapng_epb(0, ticks, data, order))
+    with open(path, 'wb') as f:
+        f.write(b''.join(out))
+
+
+def ethernet_fcs(data):
+    """Append the 4-octet Ethernet FCS (CRC-32, sent least significant octet first)."""
+    return data + struct.pack('<I', zlib.crc32(data))
+
+
+def write_pcap_truncated_tail(path):
+    """A capture whose last record is cut: its header promises the 51-octet frame, the file holds 20.
+    Returns the complete records (read back with dpkt before cutting) as the reference input."""
+    pkts = udp_exchange(LT_ETHERNET, '192.0.2.120', '198.51.100.120', 54001, 53, t=100_000)
+    pkts += [(200_000, frame(LT_ETHERNET, udp('192.0.2.120', '203.0.113.120', 54002, 514, b'cut short')))]
+    write_pcap(path, LT_ETHERNET, pkts)
+    complete = list(read_pcap(path))[:-1]
+    with open(path, 'r+b') as f:
+        f.truncate(os.path.getsize(path) - (len(pkts[-1][1]) - 20))
+    return complete
 
 
 # --------------------------------------------------------------------------------------------
@@ -361,39 +451,46 @@ def read_pcap(path):
 
 def read_pcapng(path):
     """Own walk of the blocks, because dpkt.pcapng.Reader applies the first interface's link type and
-    if_tsresol to every packet. Uses dpkt's block classes for the field layout. Little-endian only
-    (what this script writes)."""
+    if_tsresol to every packet and reads one section only. Uses dpkt's block classes (LE and BE) for
+    the field layout; follows METHODS.md 1.2: the byte order is read from each SHB's magic, interface
+    ids restart in every section, time = if_tsoffset + ticks / resolution, other blocks are skipped."""
     with open(path, 'rb') as f:
         data = f.read()
-    interfaces = []  # (linktype, ticks per second)
+    ng = dpkt.pcapng
+    le, interfaces = True, []  # interfaces: (linktype, ticks per second, offset in seconds)
     pos = 0
     while pos + 12 <= len(data):
-        btype, blen = struct.unpack_from('<II', data, pos)
+        if data[pos:pos + 4] == b'\x0a\x0d\x0d\x0a':
+            le, interfaces = data[pos + 8:pos + 12] == b'\x4d\x3c\x2b\x1a', []
+        btype, blen = struct.unpack_from('<II' if le else '>II', data, pos)
         block = data[pos:pos + blen]
-        if btype == 0x0A0D0D0A:
-            interfaces = []
-        elif btype == 1:
-            idb = dpkt.pcapng.InterfaceDescriptionBlockLE(block)
-            per_second = 10 ** 6
+        if btype == ng.PCAPNG_BT_IDB:
+            idb = (ng.InterfaceDescriptionBlockLE if le else ng.InterfaceDescriptionBlock)(block)
+            per_second, offset = 10 ** 6, 0
             for opt in idb.opts:
-                if opt.code == dpkt.pcapng.PCAPNG_OPT_IF_TSRESOL:
+                if opt.code == ng.PCAPNG_OPT_IF_TSRESOL:
                     v = opt.data[0]
                     per_second = 2 ** (v & 0x7F) if v & 0x80 else 10 ** v
-            interfaces.append((idb.linktype, per_second))
-        elif btype == 6:
-            epb = dpkt.pcapng.EnhancedPacketBlockLE(block)
-            linktype, per_second = interfaces[epb.iface_id]
+                elif opt.code == ng.PCAPNG_OPT_IF_TSOFFSET:
+                    offset = struct.unpack('<q' if le else '>q', opt.data)[0]
+            interfaces.append((idb.linktype, per_second, offset))
+        elif btype == ng.PCAPNG_BT_EPB:
+            epb = (ng.EnhancedPacketBlockLE if le else ng.EnhancedPacketBlock)(block)
+            linktype, per_second, offset = interfaces[epb.iface_id]
             ticks = (epb.ts_high << 32) | epb.ts_low
-            yield Decimal(ticks) / Decimal(per_second), linktype, epb.pkt_data
+            yield offset + Decimal(ticks) / Decimal(per_second), linktype, epb.pkt_data
         pos += blen
 
 
 def ip_layer(linktype, buf):
-    """Link layer via dpkt. Returns (dpkt IP or IP6, outermost VID or None)."""
+    """Link layer via dpkt. Returns (dpkt IP or IP6 or, for ARP, LLC and the like, None; outermost VID
+    or None). An FCS left on the frame needs no trimming: the IP length fields bound the datagram."""
+    linktype &= 0xFFFF  # the upper bits of the pcap LinkType word carry the FCS length (METHODS.md 1.1)
     if linktype == LT_ETHERNET:
         eth = dpkt.ethernet.Ethernet(buf)
         tags = getattr(eth, 'vlan_tags', None)
-        return eth.data, (tags[0].id if tags else None)
+        ip = eth.data if isinstance(eth.data, (dpkt.ip.IP, dpkt.ip6.IP6)) else None
+        return ip, (tags[0].id if tags else None)
     if linktype == LT_RAW:
         return (dpkt.ip.IP(buf) if buf[0] >> 4 == 4 else dpkt.ip6.IP6(buf)), None
     if linktype == LT_SLL:
@@ -553,7 +650,8 @@ def expected_flows(packets, exporter):
     table = FlowTable()
     for ts, linktype, buf in packets:
         ip, vlan = ip_layer(linktype, buf)
-        table.packet(ts, ip, vlan)
+        if ip is not None:
+            table.packet(ts, ip, vlan)
     recs = [f.record(exporter) for f in table.order]
     recs.sort(key=lambda r: (r['start'], r['proto'], r['src'], r['dst'], r['sport'], r['dport']))
     return recs
@@ -630,6 +728,23 @@ GOLDENS = [
     ('pcapng-two-interfaces.pcapng', 'pcapng LE, IDB 0 Ethernet tsresol 6, IDB 1 raw IP tsresol 9 snaplen 0',
      'two interfaces with different link types and timestamp resolutions, EPBs interleaved',
      write_pcapng_two_interfaces),
+    ('pcapng-sections.pcapng', 'pcapng: LE section (µs), then BE section (tsresol 0x8A, tsoffset)',
+     'two sections of different byte order, interface ids restarting, binary resolution, if_tsoffset, '
+     'NRB/ISB/custom blocks skipped, one UDP flow spanning both sections',
+     write_pcapng_sections),
+    ('ethernet-fcs.pcap', 'pcap LE µs, LinkType word 0x24000001 (Ethernet, FCS 4 octets)',
+     'frames with a trailing FCS; the link type must be masked to its low 16 bits',
+     lambda p: write_pcap(p, 0x24000001, golden_fcs())),
+    ('non-ip-frames.pcap', 'pcap LE µs, linktype 1',
+     'ARP request and reply and an 802.3/LLC spanning-tree frame give no flow; one UDP exchange does',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_non_ip())),
+    ('ipv4-options.pcap', 'pcap LE µs, linktype 1',
+     'IPv4 with options (IHL 6 and IHL 10): ports read after the options, bytes = total length',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_ipv4_options())),
+    ('truncated-tail.pcap', 'pcap LE µs, linktype 1, last record cut',
+     'the file ends 20 octets into a 51-octet record: the complete records give their flows, the cut '
+     'one none',
+     write_pcap_truncated_tail),
 ]
 
 
@@ -642,6 +757,8 @@ def scapy_totals(path):
     linktype = struct.unpack('<I' if header[:4] in (b'\xd4\xc3\xb2\xa1', b'\x4d\x3c\xb2\xa1') else '>I',
                              header[20:24])[0] & 0xFFFF
     for p in rdpcap(path):
+        if linktype == LT_ETHERNET and not isinstance(p, Ether):
+            p = Ether(bytes(p))  # scapy does not mask the FCS bits of the LinkType word
         if linktype in (LT_NULL, LT_LOOP):
             # scapy binds IPv6 only to this machine's AF_INET6 (10 on Linux) and reads LOOP (108) as
             # raw bytes, so take the family from the first 4 octets here and let scapy parse the rest.
@@ -666,15 +783,23 @@ def main():
     os.makedirs(args.out, exist_ok=True)
     for name, fmt, covers, write in GOLDENS:
         path = os.path.join(args.out, name)
-        write(path)
-        packets = read_pcapng(path) if name.endswith('.pcapng') else read_pcap(path)
+        reference = write(path)  # None, or the records to expect when the file itself is damaged
+        if reference is not None:
+            packets = reference
+        else:
+            packets = list(read_pcapng(path) if name.endswith('.pcapng') else read_pcap(path))
         flows = expected_flows(packets, exporter=name)
-        if name.endswith('.pcap'):
+        if name.endswith('.pcap') and reference is None:
             ours = (sum(f['pkts'] + f['rpkts'] for f in flows), sum(f['bytes'] + f['rbytes'] for f in flows))
             assert ours == scapy_totals(path), (name, ours, scapy_totals(path))
-        else:  # our pcapng walk must see the same timestamps and frames as scapy's pcapng reader
-            assert [(ts, buf) for ts, _, buf in read_pcapng(path)] == \
+        elif name == 'pcapng-two-interfaces.pcapng':
+            # scapy's pcapng reader handles one section without if_tsoffset: there our block walk
+            # must see the same timestamps and frames as scapy.
+            assert [(ts, buf) for ts, _, buf in packets] == \
                 [(Decimal(p.time), bytes(p)) for p in PcapNgReader(path)], name
+        elif name.endswith('.pcapng'):
+            # scapy ignores if_tsoffset and keeps interface ids across sections; compare the frames only.
+            assert [buf for _, _, buf in packets] == [bytes(p) for p in PcapNgReader(path)], name
         head = {
             'capture': name,
             'format': fmt,
