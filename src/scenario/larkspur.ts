@@ -170,7 +170,8 @@ export const ECHO_CHECKS: readonly { from: RoleName; to: string; perHour: number
 export const BACKUP = {
   hourUtc: 2,
   port: 873,
-  jitterMin: 4,
+  /** Start delay after the hour, uniform in [0, jitterMin) minutes. */
+  jitterMin: 6,
   minutes: [20, 40] as const,
   bytes: { [FILE_SERVER]: 18e9, [RECORDS_DB]: 6e9 } as Record<string, number>,
   volumeSpread: 0.2,

@@ -164,7 +164,8 @@ export function generateRhythm(o: RhythmOptions): RhythmResult {
 
   // nightly backups, and on the last day the same burst at 14:00
   const backup = (dayStart: number, hourUtc: number, isBenign: boolean): { s: number; e: number } => {
-    const jitter = Math.max(-2, Math.min(2, rng.normal())) * BACKUP.jitterMin * MINUTE;
+    // a scheduled job starts at its hour, a few minutes late at most (never early)
+    const jitter = rng.float() * BACKUP.jitterMin * MINUTE;
     const s = dayStart + hourUtc * HOUR + jitter;
     const minutes = BACKUP.minutes[0] + rng.float() * (BACKUP.minutes[1] - BACKUP.minutes[0]);
     let e = s;
