@@ -14,6 +14,8 @@ export const VOLUME = [
 ] as const;
 const OUT = [0, 1, 2, 3] as const;
 const IN = [4, 5, 6, 7] as const;
+/** Octet totals, dominated by TCP bulk transfers; they open only when the surge persists. */
+const BULK = new Set<number>([F.bytes_out, F.bytes_in]);
 /** Windows of routine history before a single window may open on its own (else it must persist). */
 export const PEAK_MATURE = 60;
 /** A surge that persists must still pass the routine peak by this factor. */
@@ -30,9 +32,10 @@ const HIGH_Z = LEARN_CLIP_Z;
  * ready baseline (12 windows, DESIGN.md section 6) and the floors (minimum size and ratio). To open,
  * the value must also either exceed the host's routine peak envelope by the surge ratio once that
  * envelope has PEAK_MATURE windows behind it (a burst larger than any the host makes routinely), or
- * exceed it by SUSTAINED_RATIO right after a high window (a surge that persists). Non-TCP octets are
- * their own features: floods are mostly UDP and ICMP, routine bulk transfers TCP. The feature with the
- * highest score speaks for its direction.
+ * exceed it by SUSTAINED_RATIO right after a high window (a surge that persists). Total octets, which
+ * routine TCP bulk transfers dominate, open only when persisting; non-TCP octets are their own features
+ * (floods are mostly UDP and ICMP) and may open in one window, as may packets and flows. The feature
+ * with the highest score speaks for its direction.
  */
 export function volumeSurge(ctx: HostContext): Finding[] {
   const st = (ctx.model.surge ??= newState());
@@ -75,7 +78,8 @@ function strongest(
     if (best && best.score >= score) continue;
     const y = Math.log1p(x);
     const peak = st.peak[i]!;
-    const overPeak = ctx.model.activeWindows >= PEAK_MATURE && y > peak + logRatio;
+    // a single window of TCP bulk octets is a transfer, not a flood: octet totals must persist
+    const overPeak = !BULK.has(f) && ctx.model.activeWindows >= PEAK_MATURE && y > peak + logRatio;
     const sustained = follows && st.last[i]! > HIGH_Z && y > peak + Math.log(SUSTAINED_RATIO);
     best = {
       kind: 'volume-surge', host: ctx.host, role: i < OUT.length ? 'source' : 'target',

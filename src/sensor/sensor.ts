@@ -37,7 +37,7 @@ export class Sensor {
       (w) => this.closeWindow(w),
     );
     this.engine = new DetectorEngine(this.aggregator, {
-      alpha: opts.alpha, floors: opts.floors, enabled: opts.enabled, learnOnly: opts.learnOnly,
+      alpha: opts.alpha, windowMs: opts.windowMs, floors: opts.floors, enabled: opts.enabled, learnOnly: opts.learnOnly,
     });
     this.tracker = new EpisodeTracker({
       windowMs: opts.windowMs, sensor: opts.sensor, mode: opts.mode,
