@@ -55,7 +55,7 @@ function renderTable(r: EvalResult): string {
   const pct = (x: number | null) => (x === null ? 'n/a' : `${(100 * x).toFixed(1)} %`);
   lines.push(
     '',
-    `alerts ${r.alerts}: ${r.true_alerts} matched an episode, ${r.explained} explained traffic-shift, `
+    `alerts ${r.alerts}: ${r.true_alerts} matched an episode, ${r.explained} explained by an episode (another detector, same hosts and time), `
       + `${r.false_alerts} false (${r.false_benign_period} in benign periods, ${r.false_other} other)`,
     `detected ${r.detected} of ${r.episodes.length} episodes; recall ${pct(r.recall)}, precision ${pct(r.precision)}`,
     `false alerts per 100 host-hours of benign traffic: ${r.false_per_100_host_hours === null ? 'n/a' : r.false_per_100_host_hours.toFixed(2)}`

@@ -53,16 +53,16 @@ describe('scoreAlerts', () => {
 
   it('counts wrong family, wrong host and late alerts as false, split by benign period', () => {
     const r = score(
-      line('w1', 'volume-surge', '192.168.60.23', '10:01', '10:02'), // wrong family
+      line('w1', 'volume-surge', '192.168.60.23', '10:01', '10:02'), // wrong family: explained, not a detection
       line('w2', 'vertical-scan', '10.60.0.7', '10:01', '10:02'), // host not in the episode
       line('w3', 'fan-in-flood', '10.60.0.6', '11:10', '11:12'), // starts after end + 5 min
       line('b1', 'volume-surge', '10.60.0.9', '13:10', '13:20'), // during the backup, on its host
     );
     expect(r.detected).toBe(0);
-    expect([r.false_benign_period, r.false_other, r.false_alerts]).toEqual([1, 3, 4]);
+    expect([r.false_benign_period, r.false_other, r.false_alerts, r.explained]).toEqual([1, 2, 3, 1]);
     expect(r.precision).toBe(0);
-    expect(r.false_per_100_host_hours).toBe(2);
-    expect(r.verdicts).toMatchObject({ b1: 'false-benign-period', w3: 'false-other' });
+    expect(r.false_per_100_host_hours).toBe(1.5);
+    expect(r.verdicts).toMatchObject({ w1: 'explained', b1: 'false-benign-period', w3: 'false-other' });
   });
 
   it('treats an overlapping traffic-shift on an episode host as explained, elsewhere as false', () => {

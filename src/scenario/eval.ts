@@ -131,7 +131,9 @@ export function scoreAlerts(truth: Truth, alerts: readonly AlertSpan[]): EvalRes
     });
     let verdict: AlertVerdict;
     if (matched) verdict = 'detection';
-    else if (a.kind === 'traffic-shift' && eps.some((e) => e.hosts.has(a.host) && overlaps(a, e))) verdict = 'explained';
+    // another detector's view of the same incident (a scanner's flow surge, an upload's volume): true,
+    // but not a detection of that episode's family
+    else if (eps.some((e) => e.hosts.has(a.host) && overlaps(a, e))) verdict = 'explained';
     else if (benign.some((b) => b.hosts.has(a.host) && overlaps(a, b))) verdict = 'false-benign-period';
     else verdict = 'false-other';
     verdicts[a.id] = verdict;
