@@ -19,6 +19,9 @@ export const CAST = {
 
 const iso = (ms: number) => new Date(ms).toISOString();
 
+/** How a probed target answers a SYN. */
+const ANSWER_NONE = 0, ANSWER_CLOSED = 1, ANSWER_OPEN = 2;
+
 /**
  * SYN probes to a list of (address, port) targets at even spacing. Each probe is answered per the
  * target: `open` gets SYN-ACK and then the prober's RST, `closed` gets RST-ACK, `absent` nothing.
@@ -69,7 +72,6 @@ class ProbeSweep extends Actor {
   }
 }
 
-const ANSWER_NONE = 0, ANSWER_CLOSED = 1, ANSWER_OPEN = 2;
 
 /** SYNs from a pool of spoofed outside sources to one service, Poisson at `perSec`. */
 class SynFlood extends Actor {

@@ -41,7 +41,7 @@ export interface EvalResult {
   /** Distinct alert ids. */
   alerts: number;
   true_alerts: number;
-  /** traffic-shift alerts overlapping an episode on one of its hosts: neither false nor detections. */
+  /** Alerts of another family (or traffic-shift) overlapping an episode on one of its hosts: neither false nor detections. */
   explained: number;
   false_benign_period: number;
   false_other: number;

@@ -23,7 +23,8 @@ function readPcap(path: string): { snaplen: number; pkts: Pkt[] } {
     const cap = b.readUInt32LE(o + 8);
     const f = o + 16;
     const type = b.readUInt16BE(f + 12);
-    let ip = f + 14, l4: number, proto: number, src: string, dst: string, ipLen: number;
+    const ip = f + 14;
+    let l4: number, proto: number, src: string, dst: string, ipLen: number;
     if (type === 0x0800) {
       proto = b[ip + 9]!; ipLen = b.readUInt16BE(ip + 2); l4 = ip + 20;
       src = [...b.subarray(ip + 12, ip + 16)].join('.'); dst = [...b.subarray(ip + 16, ip + 20)].join('.');
@@ -35,7 +36,6 @@ function readPcap(path: string): { snaplen: number; pkts: Pkt[] } {
     pkts.push({ t, src, dst, proto, sport: ports ? b.readUInt16BE(l4) : 0, dport: ports ? b.readUInt16BE(l4 + 2) : 0,
       flags: proto === 6 ? b[l4 + 13]! : 0, ipLen });
     o = f + cap;
-    ip = 0;
   }
   return { snaplen: b.readUInt32LE(16), pkts };
 }

@@ -251,6 +251,7 @@ export class EchoSeries extends Actor {
 export class UdpStream extends Actor {
   private sent = 0;
   private replyDue = false;
+  private tNext = 0;
   constructor(private readonly src: Endpoint, private readonly dst: Endpoint, private readonly sport: number,
     private readonly dport: number, private readonly payload: number, private readonly gapUs: number,
     startUs: number, private readonly endUs: number, private readonly replyEvery: number, private readonly rng: Prng) {
@@ -277,6 +278,4 @@ export class UdpStream extends Actor {
     this.next = this.tNext;
     return this.next < this.endUs;
   }
-
-  private tNext = 0;
 }
