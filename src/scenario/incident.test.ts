@@ -2,11 +2,13 @@ import { createHash } from 'node:crypto';
 import { mkdtempSync, readFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
+import { createRequire } from 'node:module';
 import { describe, expect, it } from 'vitest';
 import { CidrSet } from '../util/addr.js';
 import { generateScenario } from './index.js';
 import type { Truth } from './truth.js';
 
+const pcapParser = createRequire(import.meta.url)('pcap-parser') as { parse(path: string): { on(ev: string, fn: (x: any) => void): void } };
 const dir = mkdtempSync(join(tmpdir(), 'tw-incident-'));
 const sha = (p: string) => createHash('sha256').update(readFileSync(p)).digest('hex');
 const OPTS = { kind: 'incident', hours: 1, scale: 0.2, volume: 0.05 } as const;
@@ -77,6 +79,24 @@ describe('incident scenario', async () => {
     const inSomeEpisode = (p: Pkt) => truth.episodes.some((e) => p.t >= Date.parse(e.start) - 1000 && p.t <= Date.parse(e.end) + 60_000);
     expect(extra.length).toBe(pkts.length - cleanKeys.length);
     expect(extra.every(inSomeEpisode)).toBe(true);
+  });
+
+  it('is read the same by pcap-parser (reference library): count, lengths and times', async () => {
+    const seen: { t: number; cap: number; orig: number }[] = [];
+    await new Promise<void>((resolve, reject) => {
+      const p = pcapParser.parse(a.dataFile);
+      p.on('packet', (x) => seen.push({ t: x.header.timestampSeconds * 1000 + x.header.timestampMicroseconds / 1000,
+        cap: x.header.capturedLength, orig: x.header.originalLength }));
+      p.on('end', () => resolve());
+      p.on('error', reject);
+    });
+    expect(seen.length).toBe(pkts.length);
+    for (let i = 0; i < seen.length; i += 97) {
+      expect(seen[i]!.t).toBe(pkts[i]!.t);
+      // Ethernet frame on the wire = 14 + IP length; the capture keeps at most the snaplen
+      expect(seen[i]!.orig).toBe(14 + pkts[i]!.ipLen);
+      expect(seen[i]!.cap).toBe(Math.min(96, seen[i]!.orig));
+    }
   });
 
   it('writes time-ordered packets inside the truth span, snaplen 96, only scenario addresses', () => {
