@@ -19,6 +19,8 @@ const PHRASES: Record<string, Phrase> = {
   bytes_in: (a, v) => `${a.host} received ${v.obs} ${v.span}`,
   pkts_out: (a, v) => `${a.host} sent ${v.obs} packets ${v.span}`,
   pkts_in: (a, v) => `${a.host} received ${v.obs} packets ${v.span}`,
+  nontcp_bytes_out: (a, v) => `${a.host} sent ${v.obs} of UDP, ICMP and other non-TCP traffic ${v.span}`,
+  nontcp_bytes_in: (a, v) => `${a.host} received ${v.obs} of UDP, ICMP and other non-TCP traffic ${v.span}`,
   flows_out: (a, v) => `${a.host} opened ${v.obs} flows ${v.span}`,
   flows_in: (a, v) => `${a.host} was the target of ${v.obs} flows ${v.span}`,
   distinct_peers: (a, v) => `${a.host} contacted ${v.obs} distinct hosts ${v.span}`,
@@ -31,14 +33,14 @@ const PHRASES: Record<string, Phrase> = {
   failure_ratio: (a, v) => `${v.obs} of the connection attempts by ${a.host} failed ${v.span}`,
   syn_only_in: (a, v) => `${a.host} received ${v.obs} connection attempts that were never completed ${v.span}`,
   new_peer_bytes: (a, v) => `${a.host} sent ${v.obs} to ${v.peer ?? 'destinations'} it had not used before ${v.span}`,
-  entropy_dst_ports: (a, v) => `the destination ports used by ${a.host} had an entropy of ${v.obs} bits ${v.span}`,
-  entropy_dst_addrs: (a, v) => `the destination addresses used by ${a.host} had an entropy of ${v.obs} bits ${v.span}`,
-  entropy_src_addrs: (a, v) => `the source addresses reaching ${a.host} had an entropy of ${v.obs} bits ${v.span}`,
+  entropy_dst_ports: (a, v) => `the destination ports used by ${a.host} had a normalised entropy of ${v.obs} ${v.span}`,
+  entropy_dst_addrs: (a, v) => `the destination addresses used by ${a.host} had a normalised entropy of ${v.obs} ${v.span}`,
+  entropy_src_addrs: (a, v) => `the source addresses reaching ${a.host} had a normalised entropy of ${v.obs} ${v.span}`,
 };
 
 /** How each feature's values read: bytes in kB/MB/GB, ratios as percent, entropy with 2 decimals. */
 function formatterFor(feature: string): (x: number) => string {
-  if (feature.startsWith('bytes_') || feature === 'new_peer_bytes') return fmtBytes;
+  if (feature.startsWith('bytes_') || feature.startsWith('nontcp_bytes_') || feature === 'new_peer_bytes') return fmtBytes;
   if (feature === 'failure_ratio') return fmtPercent;
   if (feature.startsWith('entropy_')) return (x) => fmtNumber(round(x, 2));
   if (feature in PHRASES) return count;
@@ -64,6 +66,9 @@ export function explain(a: Alert): string {
     ? phrase(a, values)
     : `${a.host} (${a.role}) showed ${a.feature} = ${values.obs} ${values.span}`;
   const parts = [head, `its normal is ${fmt(Math.max(0, a.low))} to ${fmt(Math.max(0, a.high))}`];
+  if (a.kind === 'traffic-shift') {
+    parts.push(`its level has stayed ${e.direction === 'down' ? 'below' : 'above'} normal for several windows`);
+  }
   if (typeof e.failure_ratio === 'number' && a.feature !== 'failure_ratio') {
     parts.push(`${fmtPercent(e.failure_ratio)} of the attempts failed`);
   }

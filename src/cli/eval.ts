@@ -44,7 +44,7 @@ function readTruth(file: string): Truth {
   return t as Truth;
 }
 
-function renderTable(r: EvalResult): string {
+export function renderTable(r: EvalResult): string {
   const rows = [['episode', 'family', 'expected', 'result', 'delay', 'alerts']];
   for (const e of r.episodes) {
     rows.push([e.id, e.family, e.kind, e.detected ? 'detected' : 'MISSED', e.delay_s === null ? '-' : `${e.delay_s.toFixed(0)} s`, String(e.alerts.length)]);
