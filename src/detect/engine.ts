@@ -55,6 +55,11 @@ export class DetectorEngine {
   private readonly idleEvictMs: number;
   /** End of the last window with a finding, per (kind, host, role). */
   private readonly lastFinding = new Map<string, number>();
+  /**
+   * Sees every host-window after detection and before learning (the report records feature series
+   * and bands through it). Must not keep `ctx.values` or `ctx.acc` beyond the call.
+   */
+  observer: ((ctx: HostContext, findings: readonly Finding[]) => void) | null = null;
 
   constructor(private agg: WindowAggregator, private opts: EngineOptions) {
     this.thresholds = thresholdsFor(opts.alpha);
@@ -79,12 +84,13 @@ export class DetectorEngine {
       const values = acc.values(this.values);
       trwStep(model, acc.pairOk, acc.pairFail, this.thresholds.trwLogUpper, this.thresholds.trwLogLower);
       this.anomalous.fill(0);
+      const ctx: HostContext = {
+        host: name(acc.hostId), hostId: acc.hostId, inside: this.agg.isInsideId(acc.hostId),
+        windowStart: w.start, windowEnd: w.end, acc, values, model,
+        thresholds: this.thresholds, floors: this.floors, runWindows: this.runWindows, name,
+      };
+      const first = out.length;
       if (!this.opts.learnOnly) {
-        const ctx: HostContext = {
-          host: name(acc.hostId), hostId: acc.hostId, inside: this.agg.isInsideId(acc.hostId),
-          windowStart: w.start, windowEnd: w.end, acc, values, model,
-          thresholds: this.thresholds, floors: this.floors, runWindows: this.runWindows, name,
-        };
         for (const d of this.detectors) {
           const r = d(ctx);
           if (!r) continue;
@@ -96,6 +102,7 @@ export class DetectorEngine {
           }
         }
       }
+      this.observer?.(ctx, out.slice(first));
       this.baselines.learn(acc.hostId, values, w.start, this.anomalous);
       if (model.activeWindows === 0) model.firstActiveStart = w.start;
       model.activeWindows++;
