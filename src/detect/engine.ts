@@ -34,7 +34,7 @@ export interface EngineOptions {
   /** Models of hosts idle this long are dropped (counted); seasonal history needs days. */
   idleEvictMs?: number;
   windowMs: number;
-  /** Learn only (train): run no detector. */
+  /** Learn only (train): detectors run and learn, their findings are dropped. */
   learnOnly?: boolean;
 }
 
@@ -90,16 +90,15 @@ export class DetectorEngine {
         thresholds: this.thresholds, floors: this.floors, runWindows: this.runWindows, name,
       };
       const first = out.length;
-      if (!this.opts.learnOnly) {
-        for (const d of this.detectors) {
-          const r = d(ctx);
-          if (!r) continue;
-          for (const f of Array.isArray(r) ? r : [r]) {
-            if (!this.admit(f, w)) continue;
-            out.push(f);
-            const fi = (F as Record<string, number>)[f.feature];
-            if (fi !== undefined) this.anomalous[fi] = 1;
-          }
+      // detectors run in training too: their own state (peak envelopes, TRW, CUSUM) learns as well
+      for (const d of this.detectors) {
+        const r = d(ctx);
+        if (!r) continue;
+        for (const f of Array.isArray(r) ? r : [r]) {
+          if (!this.admit(f, w)) continue;
+          out.push(f);
+          const fi = (F as Record<string, number>)[f.feature];
+          if (fi !== undefined) this.anomalous[fi] = 1;
         }
       }
       this.observer?.(ctx, out.slice(first));
@@ -109,6 +108,7 @@ export class DetectorEngine {
       model.lastActiveStart = w.start;
       this.stats.hostWindows++;
     }
+    if (this.opts.learnOnly) out.length = 0;
     this.stats.findings += out.length;
     if (this.runWindows % 60 === 0) this.evict(w.start);
     return out;
