@@ -25,3 +25,14 @@ describe('flow record formatting', () => {
     expect(flowToCsv({ ...rec, exporter: 'x.pcap', vlan: 12 }).endsWith(',established,x.pcap,12')).toBe(true);
   });
 });
+
+describe('num: shortest round-trip digits', () => {
+  it('matches String(x) for timestamps, counters and awkward values', async () => {
+    const { num } = await import('./format.js');
+    const xs = [0, 1, 7, 1700000040100.7, 1700000040100.07, 1700000040100.007, 1700000040100.789, 1700000040000.1 + 0.2,
+      1700000040123.456789, 0.1, 0.001, 123.45, 1e15, 2 ** 53, 1.5e-7, -3, -0.5, 4294967295, 8999999999999.999];
+    for (let i = 0; i < 2000; i++) xs.push(1.7e12 + i * 0.001, 1.7e12 + (i * 1234567) / 1e6, (i * 7919) % 100000);
+    for (const x of xs) expect(num(x), String(x)).toBe(String(x));
+    expect([num(NaN), num(Infinity)]).toEqual(['null', 'null']);
+  });
+});

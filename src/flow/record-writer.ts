@@ -1,11 +1,12 @@
 import type { Writable } from 'node:stream';
-import { FLOW_CSV_HEADER, flowToCsv, flowToJson } from './format.js';
+import { FLOW_CSV_HEADER, flowToCsv } from './format.js';
+import { JsonLineEncoder } from './json-bytes.js';
 import type { FlowRecord } from './record.js';
 
 export type FlowOutputFormat = 'jsonl' | 'csv';
 
-/** Lines are gathered into chunks of about this many characters before one write. */
-const CHUNK_CHARS = 1 << 20;
+/** Output is handed to the stream in chunks of about this many bytes. */
+const CHUNK_BYTES = 1 << 20;
 
 /**
  * Writes FlowRecords as JSON lines or CSV in large chunks (never a write per line). Records arrive from
@@ -14,27 +15,40 @@ const CHUNK_CHARS = 1 << 20;
  * at the end. (On Linux, stdout to a file or pipe writes synchronously, so the producer is held anyway.)
  */
 export class FlowRecordWriter {
+  private readonly json: JsonLineEncoder | null;
   private parts: string[] = [];
   private size = 0;
   private blocked = false;
   records = 0;
 
-  constructor(private readonly out: Writable, private readonly format: FlowOutputFormat) {
-    if (format === 'csv') this.push(FLOW_CSV_HEADER);
+  constructor(private readonly out: Writable, format: FlowOutputFormat) {
+    this.json = format === 'jsonl' ? new JsonLineEncoder(CHUNK_BYTES + 4096) : null;
+    if (!this.json) this.pushLine(FLOW_CSV_HEADER);
   }
 
   /** A FlowSink: bind with `(r) => writer.write(r)`. */
   write(r: FlowRecord): void {
     this.records++;
-    this.push(this.format === 'csv' ? flowToCsv(r) : flowToJson(r));
+    if (this.json) {
+      this.json.write(r);
+      if (this.json.length >= CHUNK_BYTES) this.flush();
+    } else {
+      this.pushLine(flowToCsv(r));
+    }
   }
 
-  /** Hands the gathered lines to the stream. */
+  /** Hands what was gathered to the stream. */
   flush(): void {
-    if (this.parts.length === 0) return;
-    const chunk = this.parts.join('\n') + '\n';
-    this.parts = [];
-    this.size = 0;
+    let chunk: Buffer | string;
+    if (this.json) {
+      if (this.json.length === 0) return;
+      chunk = this.json.take();
+    } else {
+      if (this.parts.length === 0) return;
+      chunk = this.parts.join('\n') + '\n';
+      this.parts = [];
+      this.size = 0;
+    }
     if (!this.out.write(chunk)) this.blocked = true;
   }
 
@@ -46,9 +60,9 @@ export class FlowRecordWriter {
     this.blocked = false;
   }
 
-  private push(line: string): void {
+  private pushLine(line: string): void {
     this.parts.push(line);
     this.size += line.length + 1;
-    if (this.size >= CHUNK_CHARS) this.flush();
+    if (this.size >= CHUNK_BYTES) this.flush();
   }
 }

@@ -1,5 +1,6 @@
 import { Fragment, type PacketView, type QuotedTuple } from '../decode/view.js';
-import { ipv4ToString, ipv6ToString } from '../util/addr.js';
+import { ipv6ToString } from '../util/addr.js';
+import { Ipv4TextCache } from './addr-text.js';
 import { St, outcomeOf, tcpEnded, tcpStep } from './flow-state.js';
 import { flowHash } from './key-hash.js';
 import type { FlowRecord, FlowSink } from './record.js';
@@ -24,14 +25,18 @@ const INITIAL_CAPACITY = 1 << 14;
 /** When full, about this fraction of the held flows (the least recently seen) is evicted at once. */
 const EVICT_FRACTION = 1 / 32;
 
-// Per-flow layout: one 128-octet block per flow in one buffer, seen as 32 words (`u`) and as 16
-// doubles (`d`): words 0-15 hold the key and counts, doubles 8-15 the octets and times. A packet touches
-// one block (two adjacent cache lines) instead of one line per column; that is what keeps the table
-// fast once it outgrows the core's cache.
-const W = 32;
-const W_HASH = 0, W_META = 1, W_PORTS = 2, W_STATE = 3, W_A = 4, W_B = 8, W_PKTS = 12, W_FLAGS = 14, W_VLAN = 15;
-const D = 16;
-const D_OCTETS = 8, D_FIRST = 10, D_LAST = 11, D_WINDOW_END = 12, D_TOUCHED = 13, D_CLOSE_AT = 14;
+// Per-flow layout: one 64-octet block per flow (one cache line when aligned), seen as 16 words (`u`)
+// and 8 doubles (`d`). Words: key hash; family | protocol << 8 | state << 16; ports (A << 16 | B);
+// address word 0 of A and of B (all of an IPv4 address); packets each way; vlan + 1 | flags A << 13 |
+// flags B << 21. Doubles 4-7: first and last packet time of the update, octets each way. IPv6 address
+// words 1-3 and TCP close times are cold and live apart. One line per packet instead of one per
+// column is what keeps the table fast once it outgrows the core's cache.
+const W = 16;
+const W_HASH = 0, W_META = 1, W_PORTS = 2, W_A = 3, W_B = 4, W_PKTS = 5, W_VF = 7;
+const D = 8;
+const D_FIRST = 4, D_LAST = 5, D_OCTETS = 6;
+const STATE_SHIFT = 16;
+const VLAN_MASK = 0x1fff;
 
 export interface FlowTableStats {
   packets: number;
@@ -47,10 +52,10 @@ export interface FlowTableStats {
 
 /**
  * Bidirectional 5-tuple flow table (METHODS.md 3.1, conventions in record.ts). Each flow is a block in
- * two typed arrays, found through an open-addressing index (linear probing, backward-shift delete) on
- * the direction-free key hash. Idle flows are found by periodic scans (and checked exactly when their
- * next packet comes); a FlowRecord is made only when an update is cut: at a window boundary, an active
- * or idle timeout, a TCP close, an eviction, or `flush`.
+ * one buffer, found through an open-addressing index (linear probing, backward-shift delete) on the
+ * direction-free key hash. Idle flows are found by periodic scans (every quarter of the idle timeout)
+ * and checked exactly when their next packet comes. A FlowRecord is made only when an update is cut: at
+ * a window boundary, an active or idle timeout, a TCP close, an eviction, or `flush`.
  */
 export class FlowTable {
   readonly stats: FlowTableStats = { packets: 0, bytes: 0, flowsCreated: 0, records: 0, evicted: 0, active: 0 };
@@ -65,6 +70,10 @@ export class FlowTable {
   private cap = 0;
   private u = new Uint32Array(0);
   private d = new Float64Array(0);
+  /** IPv6 address words 1-3 of A, then of B. */
+  private v6 = new Uint32Array(0);
+  /** When a closing TCP flow is due to go (0 = not closing). */
+  private closeAt = new Float64Array(0);
   private free = new Int32Array(0);
   private freeTop = 0;
   /** Ids below this have been used at least once. */
@@ -81,6 +90,9 @@ export class FlowTable {
   private closingLen = 0;
 
   private clock = -Infinity;
+  /** The window the clock is in (window cuts on). */
+  private winStart = -Infinity;
+  private winEnd = Infinity;
   private nextSweepAt = NaN;
   private nextIdleScanAt = NaN;
 
@@ -88,6 +100,7 @@ export class FlowTable {
   private readonly keyS = new Uint32Array(4);
   private readonly keyD = new Uint32Array(4);
   private readonly text6 = new Uint8Array(16);
+  private readonly text4 = new Ipv4TextCache();
   private dir = 0;
 
   constructor(opts: FlowTableOptions, private readonly sink: FlowSink) {
@@ -122,8 +135,8 @@ export class FlowTable {
     }
     const s = this.keyS, d = this.keyD;
     if (fam === 4) {
-      s[0] = v.src4; s[1] = 0; s[2] = 0; s[3] = 0;
-      d[0] = v.dst4; d[1] = 0; d[2] = 0; d[3] = 0;
+      s[0] = v.src4;
+      d[0] = v.dst4;
     } else {
       const a = v.src6, b = v.dst6;
       s[0] = a[0]!; s[1] = a[1]!; s[2] = a[2]!; s[3] = a[3]!;
@@ -132,7 +145,7 @@ export class FlowTable {
     const h = flowHash(fam, proto, s, sport, d, dport);
     let f = this.find(h, fam, proto, s, sport, d, dport);
     // a flow idle past the timeout ends here even if no scan has reached it yet
-    if (f >= 0 && this.clock - this.d[f * D + D_TOUCHED]! >= this.idleMs) {
+    if (f >= 0 && this.clock - this.d[f * D + D_LAST]! >= this.idleMs) {
       this.remove(f);
       f = -1;
     }
@@ -152,14 +165,20 @@ export class FlowTable {
       this.nextIdleScanAt = tsMs + this.idleScanMs;
       if (this.windowMs > 0) this.nextSweepAt = this.windowStart(tsMs) + this.windowMs + ALLOWED_LATENESS_MS;
     }
-    if (this.windowMs > 0 && tsMs >= this.nextSweepAt) this.sweepWindows(tsMs);
+    if (this.windowMs > 0) {
+      if (tsMs >= this.winEnd || this.winStart === -Infinity) {
+        this.winStart = this.windowStart(tsMs);
+        this.winEnd = this.winStart + this.windowMs;
+      }
+      if (tsMs >= this.nextSweepAt) this.sweepWindows(tsMs);
+    }
     while (this.closingLen > 0 && this.closingAt[this.closingHead]! <= tsMs) {
       const f = this.closing[this.closingHead]!;
       const at = this.closingAt[this.closingHead]!;
       this.closingHead = (this.closingHead + 1) % this.closing.length;
       this.closingLen--;
       // the id may have been freed (idle, eviction) and reused since: only the same close counts
-      if (this.u[f * W + W_META] !== 0 && this.d[f * D + D_CLOSE_AT] === at) this.remove(f);
+      if (this.u[f * W + W_META] !== 0 && this.closeAt[f] === at) this.remove(f);
     }
     if (tsMs >= this.nextIdleScanAt) this.expireIdle(tsMs);
   }
@@ -186,7 +205,7 @@ export class FlowTable {
     const boundary = this.windowStart(ts - ALLOWED_LATENESS_MS);
     const u = this.u, dd = this.d;
     for (let f = 0; f < this.highWater; f++) {
-      if (u[f * W + W_META] !== 0 && dd[f * D + D_WINDOW_END]! <= boundary && this.pending(f)) this.emit(f);
+      if (u[f * W + W_META] !== 0 && this.pending(f) && this.windowStart(dd[f * D + D_FIRST]!) + this.windowMs <= boundary) this.emit(f);
     }
     this.nextSweepAt = boundary + this.windowMs + ALLOWED_LATENESS_MS;
   }
@@ -194,7 +213,7 @@ export class FlowTable {
   private expireIdle(ts: number): void {
     const u = this.u, dd = this.d;
     for (let f = 0; f < this.highWater; f++) {
-      if (u[f * W + W_META] !== 0 && ts - dd[f * D + D_TOUCHED]! >= this.idleMs) this.remove(f);
+      if (u[f * W + W_META] !== 0 && ts - dd[f * D + D_LAST]! >= this.idleMs) this.remove(f);
     }
     this.nextIdleScanAt = ts + this.idleScanMs;
   }
@@ -203,18 +222,26 @@ export class FlowTable {
     return this.u[f * W + W_PKTS]! + this.u[f * W + W_PKTS + 1]! > 0;
   }
 
+  /** The pending update must be cut before a packet at `ts` joins it. */
+  private dueCut(first: number, ts: number): boolean {
+    if (ts - first >= this.activeMs) return true;
+    if (this.windowMs === 0) return false;
+    // an update begun in the clock's window cannot be in an earlier one than `ts` (ts <= clock)
+    if (first >= this.winStart) return false;
+    return ts >= this.windowStart(first) + this.windowMs;
+  }
+
   private count(f: number, dir: number, ts: number, octets: number, tcpFlags: number): void {
     const u = this.u, dd = this.d;
     const o = f * W, p = f * D;
     let pending = u[o + W_PKTS]! + u[o + W_PKTS + 1]! > 0;
-    if (pending && (ts >= dd[p + D_WINDOW_END]! || ts - dd[p + D_FIRST]! >= this.activeMs)) {
+    if (pending && this.dueCut(dd[p + D_FIRST]!, ts)) {
       this.emit(f);
       pending = false;
     }
     if (!pending) {
       dd[p + D_FIRST] = ts;
       dd[p + D_LAST] = ts;
-      dd[p + D_WINDOW_END] = this.windowMs > 0 ? this.windowStart(ts) + this.windowMs : Infinity;
     } else if (ts > dd[p + D_LAST]!) {
       dd[p + D_LAST] = ts;
     } else if (ts < dd[p + D_FIRST]!) {
@@ -222,18 +249,18 @@ export class FlowTable {
     }
     u[o + W_PKTS + dir]!++;
     dd[p + D_OCTETS + dir]! += octets;
-    u[o + W_FLAGS] = u[o + W_FLAGS]! | (tcpFlags << (dir << 3));
-    dd[p + D_TOUCHED] = this.clock;
-    let state = u[o + W_STATE]!;
+    const meta = u[o + W_META]!;
+    let state = meta >>> STATE_SHIFT;
     if (dir === 1) state |= St.ReverseSeen;
-    if ((u[o + W_META]! >>> 8) === 6) {
+    if (tcpFlags !== 0) u[o + W_VF] = u[o + W_VF]! | (tcpFlags << (13 + (dir << 3)));
+    if (((meta >>> 8) & 0xff) === 6) {
       state = tcpStep(state, dir, tcpFlags);
       if ((state & St.Closing) === 0 && tcpEnded(state, tcpFlags)) {
         state |= St.Closing;
         this.queueClose(f, this.clock + TCP_LINGER_MS);
       }
     }
-    u[o + W_STATE] = state;
+    u[o + W_META] = ((meta & 0xffff) | (state << STATE_SHIFT)) >>> 0;
   }
 
   private queueClose(f: number, at: number): void {
@@ -253,38 +280,43 @@ export class FlowTable {
     this.closing[j] = f;
     this.closingAt[j] = at;
     this.closingLen++;
-    this.d[f * D + D_CLOSE_AT] = at;
+    this.closeAt[f] = at;
   }
 
   /** An ICMP unreachable quoted this tuple: its flow (if held) is rejected. */
   private markRejected(q: QuotedTuple): void {
     const s = this.keyS, d = this.keyD;
     if (q.family === 4) {
-      s[0] = q.src4; s[1] = 0; s[2] = 0; s[3] = 0;
-      d[0] = q.dst4; d[1] = 0; d[2] = 0; d[3] = 0;
+      s[0] = q.src4;
+      d[0] = q.dst4;
     } else {
       s.set(q.src6);
       d.set(q.dst6);
     }
     const f = this.find(flowHash(q.family, q.proto, s, q.sport, d, q.dport), q.family, q.proto, s, q.sport, d, q.dport);
-    if (f >= 0) this.u[f * W + W_STATE]! |= St.IcmpRejected;
+    if (f >= 0) this.u[f * W + W_META] = (this.u[f * W + W_META]! | (St.IcmpRejected << STATE_SHIFT)) >>> 0;
   }
 
   /** Flow id for the key, or -1; sets `this.dir` (0 when the sender is the flow's initiator). */
   private find(h: number, fam: number, proto: number, s: Uint32Array, sport: number, d: Uint32Array, dport: number): number {
     const index = this.index, mask = this.mask, u = this.u;
-    const meta = fam | (proto << 8);
+    const key = fam | (proto << 8);
     const fwd = ((sport << 16) | dport) >>> 0;
     const rev = ((dport << 16) | sport) >>> 0;
     for (let i = h & mask; ; i = (i + 1) & mask) {
       const e = index[i]!;
       if (e === 0) return -1;
-      const o = (e - 1) * W;
-      if (u[o + W_HASH] !== h || u[o + W_META] !== meta) continue;
-      const ports = u[o + W_PORTS];
-      if (ports === fwd && sameAddr(u, o + W_A, s, fam) && sameAddr(u, o + W_B, d, fam)) { this.dir = 0; return e - 1; }
-      if (ports === rev && sameAddr(u, o + W_A, d, fam) && sameAddr(u, o + W_B, s, fam)) { this.dir = 1; return e - 1; }
+      const f = e - 1, o = f * W;
+      if (u[o + W_HASH] !== h || (u[o + W_META]! & 0xffff) !== key) continue;
+      const ports = u[o + W_PORTS], a0 = u[o + W_A], b0 = u[o + W_B];
+      if (ports === fwd && a0 === s[0] && b0 === d[0] && (fam === 4 || this.sameV6(f, s, d))) { this.dir = 0; return f; }
+      if (ports === rev && a0 === d[0] && b0 === s[0] && (fam === 4 || this.sameV6(f, d, s))) { this.dir = 1; return f; }
     }
+  }
+
+  private sameV6(f: number, a: Uint32Array, b: Uint32Array): boolean {
+    const w = this.v6, o = f * 6;
+    return w[o] === a[1] && w[o + 1] === a[2] && w[o + 2] === a[3] && w[o + 3] === b[1] && w[o + 4] === b[2] && w[o + 5] === b[3];
   }
 
   private create(h: number, fam: number, proto: number, a: Uint32Array, aPort: number, b: Uint32Array, bPort: number, vlan: number): number {
@@ -299,15 +331,18 @@ export class FlowTable {
     u[o + W_HASH] = h;
     u[o + W_META] = fam | (proto << 8);
     u[o + W_PORTS] = ((aPort << 16) | bPort) >>> 0;
-    u[o + W_STATE] = 0;
-    u[o + W_A] = a[0]!; u[o + W_A + 1] = a[1]!; u[o + W_A + 2] = a[2]!; u[o + W_A + 3] = a[3]!;
-    u[o + W_B] = b[0]!; u[o + W_B + 1] = b[1]!; u[o + W_B + 2] = b[2]!; u[o + W_B + 3] = b[3]!;
+    u[o + W_A] = a[0]!;
+    u[o + W_B] = b[0]!;
     u[o + W_PKTS] = 0; u[o + W_PKTS + 1] = 0;
-    u[o + W_FLAGS] = 0;
-    u[o + W_VLAN] = vlan + 1;
+    u[o + W_VF] = (vlan + 1) & VLAN_MASK;
+    if (fam === 6) {
+      const w = this.v6, q = f * 6;
+      w[q] = a[1]!; w[q + 1] = a[2]!; w[q + 2] = a[3]!;
+      w[q + 3] = b[1]!; w[q + 4] = b[2]!; w[q + 5] = b[3]!;
+    }
     const dd = this.d, p = f * D;
     dd[p + D_OCTETS] = 0; dd[p + D_OCTETS + 1] = 0;
-    dd[p + D_CLOSE_AT] = 0;
+    this.closeAt[f] = 0;
     this.insertIndex(f, h);
     this.stats.flowsCreated++;
     this.stats.active++;
@@ -320,13 +355,13 @@ export class FlowTable {
     let lo = Infinity, hi = -Infinity;
     for (let f = 0; f < this.highWater; f++) {
       if (u[f * W + W_META] === 0) continue;
-      const t = dd[f * D + D_TOUCHED]!;
+      const t = dd[f * D + D_LAST]!;
       if (t < lo) lo = t;
       if (t > hi) hi = t;
     }
     const cutoff = lo + (hi - lo) * EVICT_FRACTION;
     for (let f = 0; f < this.highWater; f++) {
-      if (u[f * W + W_META] !== 0 && dd[f * D + D_TOUCHED]! <= cutoff) {
+      if (u[f * W + W_META] !== 0 && dd[f * D + D_LAST]! <= cutoff) {
         this.stats.evicted++;
         this.remove(f);
       }
@@ -345,40 +380,41 @@ export class FlowTable {
   private emit(f: number): void {
     const u = this.u, dd = this.d, o = f * W, p = f * D;
     const meta = u[o + W_META]!;
-    const fam = meta & 0xff, proto = meta >>> 8;
-    const ports = u[o + W_PORTS]!, flags = u[o + W_FLAGS]!;
+    const fam = meta & 0xff, proto = (meta >>> 8) & 0xff;
+    const ports = u[o + W_PORTS]!, vf = u[o + W_VF]!;
     const rec: FlowRecord = {
       start: dd[p + D_FIRST]!,
       end: dd[p + D_LAST]!,
       proto,
-      src: this.addrText(o + W_A, fam),
-      dst: this.addrText(o + W_B, fam),
+      src: this.addrText(f, 0, fam),
+      dst: this.addrText(f, 1, fam),
       sport: ports >>> 16,
       dport: ports & 0xffff,
       pkts: u[o + W_PKTS]!,
       bytes: dd[p + D_OCTETS]!,
       rpkts: u[o + W_PKTS + 1]!,
       rbytes: dd[p + D_OCTETS + 1]!,
-      flags: flags & 0xff,
-      rflags: flags >>> 8,
-      outcome: outcomeOf(proto, u[o + W_STATE]!),
+      flags: (vf >>> 13) & 0xff,
+      rflags: (vf >>> 21) & 0xff,
+      outcome: outcomeOf(proto, meta >>> STATE_SHIFT),
       exporter: this.exporter,
     };
-    if (u[o + W_VLAN]! > 0) rec.vlan = u[o + W_VLAN]! - 1;
+    if ((vf & VLAN_MASK) > 0) rec.vlan = (vf & VLAN_MASK) - 1;
     u[o + W_PKTS] = 0; u[o + W_PKTS + 1] = 0;
-    u[o + W_FLAGS] = 0;
+    u[o + W_VF] = vf & VLAN_MASK;
     dd[p + D_OCTETS] = 0; dd[p + D_OCTETS + 1] = 0;
     this.stats.records++;
     this.sink(rec);
   }
 
-  private addrText(at: number, fam: number): string {
-    const u = this.u;
-    if (fam === 4) return ipv4ToString(u[at]!);
-    const t = this.text6;
+  /** Text of end A (`end` 0) or B (1). */
+  private addrText(f: number, end: number, fam: number): string {
+    const w0 = this.u[f * W + W_A + end]!;
+    if (fam === 4) return this.text4.text(w0);
+    const t = this.text6, w = this.v6, q = f * 6 + 3 * end;
     for (let i = 0; i < 4; i++) {
-      const w = u[at + i]!;
-      t[4 * i] = w >>> 24; t[4 * i + 1] = w >>> 16; t[4 * i + 2] = w >>> 8; t[4 * i + 3] = w;
+      const x = i === 0 ? w0 : w[q + i - 1]!;
+      t[4 * i] = x >>> 24; t[4 * i + 1] = x >>> 16; t[4 * i + 2] = x >>> 8; t[4 * i + 3] = x;
     }
     return ipv6ToString(t);
   }
@@ -414,6 +450,12 @@ export class FlowTable {
     u.set(this.u);
     this.u = u;
     this.d = new Float64Array(buf);
+    const v6 = new Uint32Array(cap * 6);
+    v6.set(this.v6);
+    this.v6 = v6;
+    const closeAt = new Float64Array(cap);
+    closeAt.set(this.closeAt);
+    this.closeAt = closeAt;
     const free = new Int32Array(cap);
     free.set(this.free);
     this.free = free;
@@ -424,9 +466,4 @@ export class FlowTable {
     this.mask = slots - 1;
     for (let f = 0; f < this.highWater; f++) if (u[f * W + W_META] !== 0) this.insertIndex(f, u[f * W + W_HASH]!);
   }
-}
-
-function sameAddr(u: Uint32Array, at: number, w: Uint32Array, fam: number): boolean {
-  if (u[at] !== w[0]) return false;
-  return fam === 4 || (u[at + 1] === w[1] && u[at + 2] === w[2] && u[at + 3] === w[3]);
 }
