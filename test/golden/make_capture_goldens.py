@@ -232,17 +232,38 @@ def golden_ipv6_fragments():
 
 
 def golden_icmp_unreachable():
+    """Port unreachable from the probed host; administratively prohibited (3/13) from a router, which
+    is neither end of the TCP flow it quotes."""
     lt = LT_ETHERNET
     probe = udp('192.0.2.40', '198.51.100.40', 46001, 33434, b'probe' * 4, ip_id=40)
     err = IP(src='198.51.100.40', dst='192.0.2.40', id=41) / ICMP(type=3, code=3) / Raw(quote_v4(probe))
-    return [(100_000, frame(lt, probe)), (100_700, frame(lt, err, outbound=True))]
+    syn = tcp('192.0.2.40', '198.51.100.41', 46002, 25, 'S', 4000)
+    filtered = IP(src='203.0.113.1', dst='192.0.2.40', id=42) / ICMP(type=3, code=13) / Raw(quote_v4(syn))
+    return [(100_000, frame(lt, probe)), (100_700, frame(lt, err, outbound=True)),
+            (200_000, frame(lt, syn)), (200_900, frame(lt, filtered, outbound=True))]
 
 
 def golden_icmp6_unreachable():
+    """Port unreachable (1/4) from the probed host; administratively prohibited (1/1) from a router
+    quoting a TCP SYN."""
     lt = LT_ETHERNET
     probe = udp('2001:db8:40::a', '2001:db8:40::b', 46101, 33434, b'probe6' * 4, ipv6=True)
     err = IPv6(src='2001:db8:40::b', dst='2001:db8:40::a') / ICMPv6DestUnreach(code=4) / Raw(bytes(probe))
-    return [(100_000, frame(lt, probe)), (100_700, frame(lt, err, outbound=True))]
+    syn = IPv6(src='2001:db8:40::a', dst='2001:db8:40::c') / TCP(sport=46102, dport=25, flags='S', seq=4100)
+    filtered = IPv6(src='2001:db8:40::1', dst='2001:db8:40::a') / ICMPv6DestUnreach(code=1) / Raw(bytes(syn))
+    return [(100_000, frame(lt, probe)), (100_700, frame(lt, err, outbound=True)),
+            (200_000, frame(lt, syn)), (200_900, frame(lt, filtered, outbound=True))]
+
+
+def golden_ipv6_addresses():
+    """Text forms (RFC 5952: longest zero run compressed, the first on a tie, no single-field '::',
+    lower case) and IPv4-mapped addresses, which the FlowRecord carries as IPv4."""
+    lt = LT_ETHERNET
+    pkts = udp_exchange(lt, '2001:db8:0:0:1:0:0:1', '2001:db8:0:1:0:0:0:1', 58001, 53, ipv6=True, t=100_000)
+    pkts += [(200_000, frame(lt, udp('2001:db8:0:1:1:1:1:1', '2001:DB8:AAAA:BBBB:CCCC:DDDD:EEEE:1',
+                                     58002, 514, b'to an upper-case spelled address', ipv6=True)))]
+    pkts += udp_exchange(lt, '::ffff:192.0.2.160', '::ffff:198.51.100.160', 58003, 53, ipv6=True, t=300_000)
+    return pkts
 
 
 def golden_tcp_refused():
@@ -625,9 +646,10 @@ class FlowTable:
         self.count(ts, proto, src, dst, 0, msg.type * 256 + msg.code, ip_len, 0, vlan)
         if msg.type == ICMP_UNREACHABLE[proto]:
             quoted = msg.data.data  # Unreach -> quoted IP / IPv6 header
-            inner = quoted.data
-            flow = self.flows.get(endpoint_key(quoted.p, addr(quoted.src), inner.sport,
-                                               addr(quoted.dst), inner.dport))
+            # RFC 792 guarantees only 8 octets of the quoted transport header, too few for dpkt to
+            # parse TCP; the ports are its first 4 octets either way.
+            sport, dport = struct.unpack('>HH', bytes(quoted.data)[:4])
+            flow = self.flows.get(endpoint_key(quoted.p, addr(quoted.src), sport, addr(quoted.dst), dport))
             if flow is not None:
                 flow.icmp_rejected = True
 
@@ -701,11 +723,16 @@ GOLDENS = [
      lambda p: write_pcap(p, LT_ETHERNET, golden_ipv6_fragments())),
     ('icmp-unreachable.pcap', 'pcap LE µs, linktype 1',
      'UDP probe answered by ICMP port unreachable (3/3): the probe flow is rejected, the ICMP error is its '
-     'own flow with dport 771',
+     'own flow with dport 771; a TCP SYN answered by a router with 3/13: rejected, error flow dport 781',
      lambda p: write_pcap(p, LT_ETHERNET, golden_icmp_unreachable())),
     ('icmp6-unreachable.pcap', 'pcap LE µs, linktype 1',
-     'UDP probe answered by ICMPv6 port unreachable (1/4): probe rejected, error flow dport 260',
+     'UDP probe answered by ICMPv6 port unreachable (1/4): probe rejected, error flow dport 260; a TCP '
+     'SYN answered by a router with 1/1: rejected, error flow dport 257',
      lambda p: write_pcap(p, LT_ETHERNET, golden_icmp6_unreachable())),
+    ('ipv6-addresses.pcap', 'pcap LE µs, linktype 1',
+     'RFC 5952 text forms (2001:db8::1:0:0:1, 2001:db8:0:1::1, no single-field ::, lower case) and '
+     'IPv4-mapped IPv6 carried as IPv4',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_ipv6_addresses())),
     ('tcp-refused.pcap', 'pcap LE µs, linktype 1',
      'SYN answered by RST-ACK: rejected',
      lambda p: write_pcap(p, LT_ETHERNET, golden_tcp_refused())),
