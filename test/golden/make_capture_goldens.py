@@ -528,7 +528,6 @@ def ip_layer(linktype, buf):
 # --------------------------------------------------------------------------------------------
 
 ICMP_ECHO_REPLY_TO_REQUEST = {(1, 0): 8, (58, 129): 128}
-ICMP_ERROR_TYPES = {1: {3, 4, 5, 11, 12}, 58: {1, 2, 3, 4}}
 ICMP_UNREACHABLE = {1: 3, 58: 1}
 
 
@@ -540,6 +539,9 @@ def addr(packed):
 
 
 class Flow:
+    """One bidirectional flow: counters per direction (initiator first) and the TCP handshake facts
+    the outcome is decided from."""
+
     def __init__(self, proto, src, dst, sport, dport, ts, vlan):
         self.proto, self.src, self.dst, self.sport, self.dport = proto, src, dst, sport, dport
         self.start = self.end = ts
@@ -639,6 +641,9 @@ class FlowTable:
             self.count(ts, proto, src, dst, 0, 0, ip_len, 0, vlan)
 
     def icmp(self, ts, proto, src, dst, msg, ip_len, vlan):
+        """Echo replies fold into their request's flow; every other message (requests, errors) is a
+        flow of its own keyed by type and code. A Destination Unreachable of any code also marks the
+        flow it quotes rejected (the goldens use 3/3, 3/13, 1/4 and 1/1 only)."""
         request = ICMP_ECHO_REPLY_TO_REQUEST.get((proto, msg.type))
         if request is not None:  # a reply: count it backwards on its request's flow
             self.count(ts, proto, dst, src, 0, request * 256 + msg.code, ip_len, 0, vlan, reverse=True)
