@@ -11,11 +11,12 @@ const LINE_RESERVE = 512;
  * fast cases) is written through `flowToJson`'s own rules.
  */
 export class JsonLineEncoder {
-  private buf: Buffer;
+  // a plain Uint8Array (not a Buffer) so every store in the hot loops sees one array type
+  private buf: Uint8Array;
   private pos = 0;
 
   constructor(private readonly chunkBytes = 1 << 20) {
-    this.buf = Buffer.allocUnsafe(chunkBytes);
+    this.buf = new Uint8Array(chunkBytes);
   }
 
   get length(): number {
@@ -24,8 +25,8 @@ export class JsonLineEncoder {
 
   /** The bytes written so far (a new buffer takes their place; the returned one is the caller's). */
   take(): Buffer {
-    const out = this.buf.subarray(0, this.pos);
-    this.buf = Buffer.allocUnsafe(this.chunkBytes);
+    const out = Buffer.from(this.buf.buffer, this.buf.byteOffset, this.pos);
+    this.buf = new Uint8Array(this.chunkBytes);
     this.pos = 0;
     return out;
   }
@@ -34,7 +35,9 @@ export class JsonLineEncoder {
     const exporterLen = r.exporter.length;
     if (this.pos + LINE_RESERVE + 6 * exporterLen > this.buf.length) this.growFor(LINE_RESERVE + 6 * exporterLen);
     if (!(plain(r.src) && plain(r.dst) && plain(r.exporter))) {
-      this.pos += this.buf.write(`${flowToJson(r)}\n`, this.pos, 'utf8');
+      const line = Buffer.from(`${flowToJson(r)}\n`, 'utf8');
+      this.buf.set(line, this.pos);
+      this.pos += line.length;
       return;
     }
     const b = this.buf;
@@ -62,8 +65,8 @@ export class JsonLineEncoder {
   }
 
   private growFor(n: number): void {
-    const next = Buffer.allocUnsafe(Math.max(this.buf.length * 2, this.pos + n));
-    this.buf.copy(next, 0, 0, this.pos);
+    const next = new Uint8Array(Math.max(this.buf.length * 2, this.pos + n));
+    next.set(this.buf.subarray(0, this.pos));
     this.buf = next;
   }
 }

@@ -11,8 +11,10 @@ export function fmix32(h: number): number {
   return (h ^ (h >>> 16)) >>> 0;
 }
 
+/** One multiply-xorshift round per end is enough: the sum of the ends goes through fmix32 after. */
 function end4(addr: number, port: number): number {
-  return fmix32(addr ^ Math.imul(port + 1, 0x9e3779b1));
+  const h = Math.imul(addr ^ Math.imul(port + 1, 0x9e3779b1), 0x85ebca6b);
+  return h ^ (h >>> 15);
 }
 
 function end6(w: Uint32Array, port: number): number {
@@ -20,7 +22,8 @@ function end6(w: Uint32Array, port: number): number {
   h = Math.imul(h ^ w[1]!, 0x1b873593);
   h = Math.imul(h ^ w[2]!, 0xcc9e2d51);
   h = Math.imul(h ^ w[3]!, 0x1b873593);
-  return fmix32(h ^ Math.imul(port + 1, 0x9e3779b1));
+  h = Math.imul(h ^ Math.imul(port + 1, 0x9e3779b1), 0x85ebca6b);
+  return h ^ (h >>> 15);
 }
 
 /** Hash of a flow key; `a`/`b` are four-word addresses (IPv4 in word 0). */

@@ -95,6 +95,8 @@ export class FlowTable {
   private winEnd = Infinity;
   private nextSweepAt = NaN;
   private nextIdleScanAt = NaN;
+  /** Before this event time nothing is due (no window end, sweep, close or idle scan): `add` skips `advance`. */
+  private nextDueAt = -Infinity;
 
   // scratch keys, so lookups allocate nothing
   private readonly keyS = new Uint32Array(4);
@@ -115,7 +117,10 @@ export class FlowTable {
 
   /** Counts one decoded packet seen at `tsMs` (epoch ms). */
   add(v: PacketView, tsMs: number): void {
-    if (tsMs > this.clock) this.advance(tsMs);
+    if (tsMs > this.clock) {
+      if (tsMs < this.nextDueAt) this.clock = tsMs;
+      else this.advance(tsMs);
+    }
     const st = this.stats;
     st.packets++;
     st.bytes += v.ipBytes;
@@ -181,6 +186,14 @@ export class FlowTable {
       if (this.u[f * W + W_META] !== 0 && this.closeAt[f] === at) this.remove(f);
     }
     if (tsMs >= this.nextIdleScanAt) this.expireIdle(tsMs);
+    this.updateNextDue();
+  }
+
+  private updateNextDue(): void {
+    let t = this.nextIdleScanAt;
+    if (this.windowMs > 0) t = Math.min(t, this.winEnd, this.nextSweepAt);
+    if (this.closingLen > 0) t = Math.min(t, this.closingAt[this.closingHead]!);
+    this.nextDueAt = t;
   }
 
   /** End of input: emits every pending update and empties the table. */
@@ -281,6 +294,7 @@ export class FlowTable {
     this.closingAt[j] = at;
     this.closingLen++;
     this.closeAt[f] = at;
+    if (at < this.nextDueAt) this.nextDueAt = at;
   }
 
   /** An ICMP unreachable quoted this tuple: its flow (if held) is rejected. */
