@@ -1,7 +1,7 @@
 import type { AlertKind, Finding, Role } from '../detect/finding.js';
 import { rfc3339 } from '../util/time.js';
 import { ALERT_SCHEMA, type Alert, type AlertState } from './alert.js';
-import { EvidenceAccumulator } from './evidence.js';
+import { EvidenceAccumulator, type EvidenceState } from './evidence.js';
 import { episodeId } from './id.js';
 import { severityForScore } from './severity.js';
 
@@ -49,6 +49,23 @@ interface Episode {
   admission: Admission;
   /** Lines waiting for the hour's budget verdict (replay mode only). */
   held: HeldAlert[];
+}
+
+/** An episode as plain data (evidence as its tallies), for the state store. */
+export type EpisodeState = Omit<Episode, 'evidence'> & { evidence: EvidenceState };
+
+/** Everything the tracker holds between windows: open episodes, held hours and counters. */
+export interface TrackerState {
+  /** Every episode still referenced (open, or closed but waiting in a held hour), each once. */
+  episodes: EpisodeState[];
+  /** Indexes into `episodes` of the open ones, in the tracker's order. */
+  active: number[];
+  /** Start hour -> indexes into `episodes`. */
+  pendingHours: [number, number[]][];
+  liveAdmitted: [number, number[]][];
+  heldSeq: number;
+  lastWindowEnd: number;
+  counters: EpisodeCounters;
 }
 
 /**
@@ -117,6 +134,44 @@ export class EpisodeTracker {
   finish(): void {
     for (const ep of [...this.active.values()].sort(byEpisodeKey)) this.close(ep, this.lastWindowEnd);
     this.releaseHoursBefore(Infinity);
+  }
+
+  /** Open episodes (with their evidence), held hours and counters, so a later run continues them. */
+  snapshot(): TrackerState {
+    const index = new Map<Episode, number>();
+    const episodes: EpisodeState[] = [];
+    const ref = (ep: Episode): number => {
+      let i = index.get(ep);
+      if (i === undefined) {
+        i = episodes.push({ ...ep, evidence: ep.evidence.toState(), held: ep.held.map((h) => ({ ...h })) }) - 1;
+        index.set(ep, i);
+      }
+      return i;
+    };
+    return {
+      active: [...this.active.values()].map(ref),
+      pendingHours: [...this.pendingHours].map(([h, eps]) => [h, eps.map(ref)]),
+      episodes,
+      liveAdmitted: [...this.liveAdmitted].map(([h, xs]) => [h, xs.slice()]),
+      heldSeq: this.heldSeq, lastWindowEnd: this.lastWindowEnd,
+      counters: { ...this.counters, emitted: { ...this.counters.emitted } },
+    };
+  }
+
+  /** Continues from a snapshot (replaces whatever the tracker held). */
+  restore(s: TrackerState): void {
+    const eps: Episode[] = s.episodes.map((e) => ({ ...e, evidence: EvidenceAccumulator.fromState(e.evidence), held: e.held.map((h) => ({ ...h })) }));
+    this.active.clear();
+    for (const i of s.active) this.active.set(eps[i]!.key, eps[i]!);
+    this.pendingHours.clear();
+    for (const [h, list] of s.pendingHours) this.pendingHours.set(h, list.map((i) => eps[i]!));
+    this.liveAdmitted.clear();
+    for (const [h, xs] of s.liveAdmitted) this.liveAdmitted.set(h, xs.slice());
+    this.heldSeq = s.heldSeq;
+    this.lastWindowEnd = s.lastWindowEnd;
+    this.counters.opened = s.counters.opened;
+    this.counters.suppressedByBudget = s.counters.suppressedByBudget;
+    Object.assign(this.counters.emitted, s.counters.emitted);
   }
 
   private openEpisode(key: string, f: Finding, windowStart: number, windowEnd: number): void {

@@ -49,6 +49,34 @@ export class EvidenceAccumulator {
     for (const k of Object.keys(extrasFrom)) if (!BASE_KEYS.has(k)) out[k] = extrasFrom[k];
     return out;
   }
+
+  /** The full tallies (plain data), for the state store. */
+  toState(): EvidenceState {
+    return {
+      peers: [...this.peers], ports: [...this.ports], samples: this.samples.slice(),
+      flows: this.flows, packets: this.packets, bytes: this.bytes,
+    };
+  }
+
+  static fromState(s: EvidenceState): EvidenceAccumulator {
+    const e = new EvidenceAccumulator();
+    for (const [k, v] of s.peers) e.peers.set(k, v);
+    for (const [k, v] of s.ports) e.ports.set(k, v);
+    e.samples.push(...s.samples);
+    e.flows = s.flows;
+    e.packets = s.packets;
+    e.bytes = s.bytes;
+    return e;
+  }
+}
+
+export interface EvidenceState {
+  peers: [string, number][];
+  ports: [number, number][];
+  samples: SampleFlow[];
+  flows: number;
+  packets: number;
+  bytes: number;
 }
 
 /** Count descending, then key ascending, so ties rank the same on every run. */

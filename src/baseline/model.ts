@@ -123,6 +123,11 @@ export class BaselineBank {
     return slot < this.capacity ? this.history[slot]! : 0;
   }
 
+  /** The slot has learned at least one window (slotToBytes of it is worth keeping). */
+  isUsed(slot: number): boolean {
+    return slot < this.capacity && !Number.isNaN(this.last[slot]!);
+  }
+
   /** Declares that windows starting in [fromMs, toMs) had no input at all (missing, not silent). */
   markMissing(fromMs: number, toMs: number): void {
     if (!(toMs > fromMs)) return;

@@ -38,6 +38,13 @@ export interface EngineOptions {
   learnOnly?: boolean;
 }
 
+export interface EngineRunState {
+  runWindows: number;
+  /** End of the last window with a finding, per `kind|host|role`. */
+  lastFinding: [string, number][];
+  stats: DetectorEngine['stats'];
+}
+
 /**
  * Runs the detectors over each closed window and keeps every host's learned model. Hosts are learned
  * after they are tested, with anomalous values clipped, so an attack is not learned as normal.
@@ -126,6 +133,18 @@ export class DetectorEngine {
     if (!continuing && !(f.score > this.thresholds.z && f.openable !== false)) return false;
     this.lastFinding.set(key, w.end);
     return true;
+  }
+
+  /** The engine's run state beyond models and baselines (windows run, recent findings), for the state store. */
+  runState(): EngineRunState {
+    return { runWindows: this.runWindows, lastFinding: [...this.lastFinding], stats: { ...this.stats } };
+  }
+
+  restoreRunState(s: EngineRunState): void {
+    this.runWindows = s.runWindows;
+    this.lastFinding.clear();
+    for (const [k, v] of s.lastFinding) this.lastFinding.set(k, v);
+    Object.assign(this.stats, s.stats);
   }
 
   private evict(now: number): void {

@@ -64,6 +64,14 @@ export class Sensor {
     this.tracker.finish();
   }
 
+  /**
+   * End of this input with state kept (`--state`): every window closes (the data is complete up to
+   * here) but open episodes stay open, to continue in the next run restored from the state.
+   */
+  suspend(): void {
+    this.aggregator.finish();
+  }
+
   private closeWindow(w: ClosedWindow): void {
     const findings = this.engine.onWindow(w);
     this.tracker.observe(findings, w.start, w.end);

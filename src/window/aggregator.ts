@@ -1,8 +1,8 @@
 import type { FlowRecord } from '../flow/record.js';
 import type { CidrSet } from '../util/addr.js';
 import { isNonHost } from '../util/addr.js';
-import { AddressTable } from './intern.js';
-import { PairHistory } from './pair-history.js';
+import { AddressTable, type AddressTableSnapshot } from './intern.js';
+import { PairHistory, type PairHistorySnapshot } from './pair-history.js';
 import { HostAcc } from './host-acc.js';
 
 export interface WindowOptions {
@@ -24,6 +24,20 @@ export interface ClosedWindow {
 }
 
 interface RecentPeer { peer: number; first: number }
+
+/** WindowAggregator state between windows (see snapshot()). */
+export interface AggregatorSnapshot {
+  addresses: AddressTableSnapshot;
+  history: PairHistorySnapshot;
+  prevalence: Uint16Array;
+  insideSeen: Uint8Array;
+  insideHosts: number;
+  /** Recent new peers per inside host, in list order. */
+  recent: { host: number; peers: number[]; firsts: number[] }[];
+  nextClose: number;
+  maxTime: number;
+  stats: WindowAggregator['stats'];
+}
 
 /**
  * Per-host windows in event time (DESIGN.md section 2, window/). Flow records are attributed to the
@@ -153,6 +167,34 @@ export class WindowAggregator {
       if (keep.length === 0) this.recent.delete(k);
       else if (keep.length !== list.length) this.recent.set(k, keep);
     }
+  }
+
+  /**
+   * Everything the aggregator learned, for the state store; only between windows (none open, as after
+   * finish()), since open windows' accumulators are not part of it.
+   */
+  snapshot(): AggregatorSnapshot {
+    if (this.open.size > 0) throw new Error('aggregator snapshot with open windows');
+    return {
+      addresses: this.addresses.snapshot(), history: this.history.snapshot(),
+      prevalence: this.prevalence.slice(), insideSeen: this.insideSeen.slice(), insideHosts: this.insideHosts,
+      recent: [...this.recent].map(([host, list]) => ({ host, peers: list.map((p) => p.peer), firsts: list.map((p) => p.first) })),
+      nextClose: this.nextClose, maxTime: this.maxTime, stats: { ...this.stats },
+    };
+  }
+
+  /** Continues from a snapshot: the next window to close, peer history, prevalence and counters. */
+  restore(s: AggregatorSnapshot): void {
+    this.addresses.restore(s.addresses);
+    this.history.restore(s.history);
+    this.prevalence = s.prevalence.slice();
+    this.insideSeen = s.insideSeen.slice();
+    this.insideHosts = s.insideHosts;
+    this.recent = new Map(s.recent.map((r) => [r.host, r.peers.map((peer, i) => ({ peer, first: r.firsts[i]! }))]));
+    this.open.clear();
+    this.nextClose = s.nextClose;
+    this.maxTime = s.maxTime;
+    Object.assign(this.stats, s.stats);
   }
 
   private bucket(w: number): Map<number, HostAcc> {

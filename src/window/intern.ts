@@ -41,4 +41,23 @@ export class AddressTable {
   get size(): number {
     return this.ids.size;
   }
+
+  /** Every id's address (undefined for ids never handed out) and the free list, for the state store. */
+  snapshot(): AddressTableSnapshot {
+    return { names: [...this.names], free: [...this.free] };
+  }
+
+  /** Replaces the table with a snapshot: the same addresses get the same ids. */
+  restore(s: AddressTableSnapshot): void {
+    this.names = [...s.names] as string[];
+    this.free = [...s.free];
+    this.ids.clear();
+    const freed = new Set(s.free);
+    s.names.forEach((n, id) => { if (n !== undefined && n !== null && !freed.has(id)) this.ids.set(n, id); });
+  }
+}
+
+export interface AddressTableSnapshot {
+  names: readonly (string | undefined | null)[];
+  free: readonly number[];
 }

@@ -11,8 +11,14 @@ const ID_LIMIT = 2 ** 26;
 class KeySet {
   keys: Float64Array;
   size = 0;
-  constructor(readonly capacity: number) {
-    this.keys = new Float64Array(capacity * 2).fill(EMPTY);
+  constructor(readonly capacity: number, keys?: Float64Array) {
+    this.keys = keys ?? new Float64Array(capacity * 2).fill(EMPTY);
+  }
+  /** A set over a copy of `keys` as snapshot() left them (same slots, so the same probing). */
+  static of(keys: Float64Array): KeySet {
+    const s = new KeySet(keys.length / 2, keys.slice());
+    for (let i = 0; i < keys.length; i++) if (keys[i] !== EMPTY) s.size++;
+    return s;
   }
   private slot(key: number): number {
     const mask = this.keys.length - 1;
@@ -95,4 +101,22 @@ export class PairHistory {
   get size(): number {
     return this.young.size + (this.old?.size ?? 0);
   }
+
+  /** Both generations' slot arrays (copies) and the forgotten count, for the state store. */
+  snapshot(): PairHistorySnapshot {
+    return { young: this.young.keys.slice(), old: this.old ? this.old.keys.slice() : null, forgotten: this.forgotten };
+  }
+
+  /** Replaces the history with a snapshot (slot arrays as snapshot() gave them). */
+  restore(s: PairHistorySnapshot): void {
+    this.young = KeySet.of(s.young);
+    this.old = s.old ? KeySet.of(s.old) : null;
+    this.forgotten = s.forgotten;
+  }
+}
+
+export interface PairHistorySnapshot {
+  young: Float64Array;
+  old: Float64Array | null;
+  forgotten: number;
 }
