@@ -103,4 +103,14 @@ describe('tidewatch flows (compiled CLI)', () => {
     expect(flows('--max-flows', '0', junk).code).toBe(2);
     expect(flows('--input-format', 'pdf', junk).code).toBe(2);
   });
+
+  it('reads stdin as `-` (exporter "stdin") and stops quietly when the reader of stdout goes away', () => {
+    const many: [number, Uint8Array][] = [];
+    for (let i = 0; i < 3000; i++) many.push([i / 100, ether(0x0800, ipv4({ src: C, dst: S, proto: 17, payload: udp(10000 + i, 53, 20) }))]);
+    const path = capture('many.pcap', many);
+    const r = spawnSync('sh', ['-c', `"${process.execPath}" "${CLI}" flows - < "${path}" | head -n 1`], { encoding: 'utf8' });
+    expect(r.status).toBe(0);
+    expect(JSON.parse(r.stdout).exporter).toBe('stdin');
+    expect(r.stderr).not.toMatch(/EPIPE|Error/);
+  });
 });

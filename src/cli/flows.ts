@@ -49,6 +49,11 @@ async function runFlows(inputs: string[], o: FlowsOptions): Promise<void> {
     } else problems.more++;
   };
   const opts: IngestOptions = { ...ingestOptions(o), onProblem };
+  // the reader of our output went away (`| head`): nothing more to do, as with SIGPIPE in C tools
+  process.stdout.on('error', (e: NodeJS.ErrnoException) => {
+    if (e.code === 'EPIPE') process.exit(0);
+    throw e;
+  });
   const writer = new FlowRecordWriter(process.stdout, o.format as FlowOutputFormat);
   const sink = (r: Parameters<FlowRecordWriter['write']>[0]) => writer.write(r);
   for (const name of inputs) {

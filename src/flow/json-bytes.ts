@@ -112,14 +112,13 @@ function num(b: Uint8Array, p: number, x: number): number {
 
 /** A non-negative integer below 2^53: small ones on the integer path, big ones by halves. */
 function int(b: Uint8Array, p: number, n: number): number {
-  if (n > 0x7fffffff) {
+  if (n > 999_999_999) {
     const hi = Math.floor(n / 1e9);
     p = int(b, p, hi);
     return pad9(b, p, n - hi * 1e9);
   }
   if (n < 10) { b[p] = 0x30 + n; return p + 1; }
-  let len = 1;
-  for (let t = n; t >= 10; len++) t = (t / 10) | 0;
+  const len = n < 100 ? 2 : n < 1000 ? 3 : n < 10000 ? 4 : n < 100000 ? 5 : n < 1000000 ? 6 : n < 10000000 ? 7 : n < 100000000 ? 8 : 9;
   for (let i = p + len - 1, t = n; i >= p; i--) {
     const q = (t / 10) | 0;
     b[i] = 0x30 + t - q * 10;
