@@ -14,10 +14,11 @@ import { renderTable } from './eval.js';
 import { defaultLateness } from './options.js';
 import { describeInputs, runInputs } from './run-inputs.js';
 import { inputError } from './exit.js';
+import { rulesFromOption } from './rules.js';
 
 const BUNDLED = fileURLToPath(new URL('../../../captures/larkspur-demo.pcap', import.meta.url));
 
-interface DemoRaw { bundled?: boolean; seed: string; keep?: boolean; format?: string; color?: boolean }
+interface DemoRaw { bundled?: boolean; seed: string; keep?: boolean; format?: string; color?: boolean; rules?: string }
 
 /**
  * `tidewatch demo`: generates the Larkspur incident scenario (6 hours, about 2 M packets) into a
@@ -33,7 +34,9 @@ export function register(program: Command): void {
     .option('--keep', 'keep the generated folder')
     .option('--format <fmt>', 'jsonl or pretty (default: pretty on a terminal, jsonl otherwise)')
     .option('--no-color', 'no colour in pretty output')
+    .option('--rules <path>', 'rule file or folder (default: the shipped rules/); the inside networks come from the truth')
     .action(async (raw: DemoRaw) => {
+      const rules = rulesFromOption(raw.rules);
       let dataFile: string;
       let truthFile: string;
       let dir: string | null = null;
@@ -53,7 +56,7 @@ export function register(program: Command): void {
       const output = new AlertOutput({ format: raw.format, color: raw.color });
       const emit = (a: Alert) => { lines.push(alertToJson(a)); output.emit(a); };
       const sensor = new Sensor({
-        windowMs: 60_000, latenessMs: 5_000, alpha: 0.001, internal: truth.inside, sensor: 'larkspur-demo', mode: 'replay',
+        windowMs: 60_000, latenessMs: 5_000, alpha: 0.001, internal: truth.inside, sensor: 'larkspur-demo', mode: 'replay', rules,
       }, emit);
       process.stderr.write(`replaying ${dataFile} (inside networks ${truth.inside.join(', ')})\n`);
       const { summaries } = await runInputs([dataFile], sensor.record, {

@@ -5,6 +5,8 @@ import { register as registerFlows } from './flows.js';
 import { register as registerReplay } from './replay.js';
 import { register as registerEval } from './eval.js';
 import { register as registerDemo } from './demo.js';
+import { register as registerReport } from './report.js';
+import { register as registerRules } from './rules.js';
 
 const program = new Command();
 program
@@ -19,6 +21,8 @@ registerFlows(program);
 registerReplay(program);
 registerEval(program);
 registerDemo(program);
+registerReport(program);
+registerRules(program);
 
 async function run(): Promise<void> {
   try {

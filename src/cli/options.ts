@@ -6,6 +6,7 @@ import { INPUT_FORMATS, type InputFormat } from '../ingest/types.js';
 import { MAX_ALPHA } from '../detect/thresholds.js';
 import type { SensorOptions } from '../sensor/sensor.js';
 import { usageError } from './exit.js';
+import { rulesFromOption } from './rules.js';
 
 /** Options shared by the commands that run the sensor (replay, train, watch, demo). */
 export function addSensorOptions(cmd: Command): Command {
@@ -13,7 +14,8 @@ export function addSensorOptions(cmd: Command): Command {
     .option('--window <duration>', 'window length (e.g. 60s, 5m)', '60s')
     .option('--alpha <p>', 'target false-alarm probability per host-window', '0.001')
     .option('--max-alerts-per-hour <n>', 'keep at most this many episodes per hour (highest scores)')
-    .option('--internal <cidrs>', 'inside networks, comma-separated', DEFAULT_INTERNAL.join(','))
+    .option('--internal <cidrs>', `inside networks, comma-separated (default: the rule set's inside list, else ${DEFAULT_INTERNAL.join(',')})`)
+    .option('--rules <path>', 'rule file or folder (default: the shipped rules/); an invalid set stops the command')
     .option('--sensor <name>', 'sensor name carried in every alert', hostname())
     .option('--lateness <duration>', 'allowed lateness (default 5s for captures, 120s for flow exports)')
     .addOption(new Option('--input-format <fmt>', 'override format sniffing').choices([...INPUT_FORMATS]))
@@ -21,8 +23,8 @@ export function addSensorOptions(cmd: Command): Command {
 }
 
 export interface RawSensorOptions {
-  window: string; alpha: string; maxAlertsPerHour?: string; internal: string; sensor: string;
-  lateness?: string; inputFormat?: InputFormat; quiet?: boolean;
+  window: string; alpha: string; maxAlertsPerHour?: string; internal?: string; sensor: string;
+  lateness?: string; inputFormat?: InputFormat; quiet?: boolean; rules?: string;
 }
 
 export interface ParsedSensorOptions {
@@ -42,7 +44,11 @@ export function parseSensorOptions(o: RawSensorOptions): ParsedSensorOptions {
     maxAlertsPerHour = Number(o.maxAlertsPerHour);
     if (!Number.isInteger(maxAlertsPerHour) || maxAlertsPerHour < 1) throw usageError(`--max-alerts-per-hour: expected a positive integer, got ${o.maxAlertsPerHour}`);
   }
-  const internal = o.internal.split(',').map((s) => s.trim()).filter(Boolean);
+  const rules = rulesFromOption(o.rules);
+  // an explicit --internal wins over the rule set's inside list
+  const internal = o.internal !== undefined
+    ? o.internal.split(',').map((s) => s.trim()).filter(Boolean)
+    : rules.inside ?? DEFAULT_INTERNAL;
   for (const c of internal) if (!parseCidr(c)) throw usageError(`--internal: not a CIDR: ${c}`);
   let latenessMs: number | undefined;
   if (o.lateness !== undefined) {
@@ -50,7 +56,7 @@ export function parseSensorOptions(o: RawSensorOptions): ParsedSensorOptions {
     if (!(latenessMs >= 0)) throw usageError(`--lateness: not a duration: ${o.lateness}`);
   }
   return {
-    sensor: { windowMs, alpha, internal, sensor: o.sensor, maxAlertsPerHour },
+    sensor: { windowMs, alpha, internal, sensor: o.sensor, maxAlertsPerHour, rules },
     latenessMs, inputFormat: o.inputFormat, quiet: o.quiet === true,
   };
 }

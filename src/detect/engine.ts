@@ -1,6 +1,6 @@
 import { FEATURE_COUNT, F } from '../window/features.js';
 import type { ClosedWindow, WindowAggregator } from '../window/aggregator.js';
-import type { Finding } from './finding.js';
+import type { AlertKind, Finding } from './finding.js';
 import type { HostContext } from './context.js';
 import { Baselines, HostModel } from './model.js';
 import { thresholdsFor, DEFAULT_FLOORS, type Floors, type Thresholds } from './thresholds.js';
@@ -10,6 +10,7 @@ import { fanInFlood } from './fan-in-flood.js';
 import { verticalScan, horizontalScan } from './scan.js';
 import { unusualDestination } from './unusual-destination.js';
 import { trafficShift } from './traffic-shift.js';
+import type { RuleSet } from '../rules/ruleset.js';
 
 /** Quiet windows after which an episode closes (the alert tracker's closeAfterQuietWindows). */
 export const QUIET_WINDOWS = 3;
@@ -28,6 +29,7 @@ export const DETECTORS: Readonly<Record<string, Detector>> = {
 
 export interface EngineOptions {
   alpha: number;
+  /** Floor overrides; with `rules`, the rule set's floors for each host are used instead. */
   floors?: Partial<Floors>;
   /** Detector names to run (default all). */
   enabled?: readonly string[];
@@ -36,6 +38,8 @@ export interface EngineOptions {
   windowMs: number;
   /** Learn only (train): detectors run and learn, their findings are dropped. */
   learnOnly?: boolean;
+  /** Rule files: per-host floors, enabled detectors, allowlists and maintenance windows, rule ids. */
+  rules?: RuleSet;
 }
 
 export interface EngineRunState {
@@ -71,7 +75,7 @@ export class DetectorEngine {
   constructor(private agg: WindowAggregator, private opts: EngineOptions) {
     this.thresholds = thresholdsFor(opts.alpha);
     this.floors = { ...DEFAULT_FLOORS, ...opts.floors };
-    const names = opts.enabled ?? Object.keys(DETECTORS);
+    const names = (opts.enabled ?? Object.keys(DETECTORS)).filter((n) => opts.rules?.enabled(n as AlertKind) ?? true);
     this.detectors = names.map((n) => {
       const d = DETECTORS[n];
       if (!d) throw new Error(`unknown detector: ${n}`);
@@ -91,10 +95,12 @@ export class DetectorEngine {
       const values = acc.values(this.values);
       trwStep(model, acc.pairOk, acc.pairFail, this.thresholds.trwLogUpper, this.thresholds.trwLogLower);
       this.anomalous.fill(0);
+      const host = name(acc.hostId);
+      const rules = this.opts.rules;
       const ctx: HostContext = {
-        host: name(acc.hostId), hostId: acc.hostId, inside: this.agg.isInsideId(acc.hostId),
+        host, hostId: acc.hostId, inside: this.agg.isInsideId(acc.hostId),
         windowStart: w.start, windowEnd: w.end, acc, values, model,
-        thresholds: this.thresholds, floors: this.floors, runWindows: this.runWindows, name,
+        thresholds: this.thresholds, floors: rules ? rules.floorsFor(host) : this.floors, runWindows: this.runWindows, name,
       };
       const first = out.length;
       // detectors run in training too: their own state (peak envelopes, TRW, CUSUM) learns as well
@@ -102,7 +108,10 @@ export class DetectorEngine {
         const r = d(ctx);
         if (!r) continue;
         for (const f of Array.isArray(r) ? r : [r]) {
+          // allowlists and maintenance drop before admission, so a dropped window never opens or continues
+          if (rules && !rules.allows(f)) continue;
           if (!this.admit(f, w)) continue;
+          if (rules) f.rule = rules.ruleLabel(f);
           out.push(f);
           const fi = (F as Record<string, number>)[f.feature];
           if (fi !== undefined) this.anomalous[fi] = 1;

@@ -118,6 +118,14 @@ export class RuleSet {
     return true;
   }
 
+  globalAllowEntries(): number {
+    return this.allow.reduce((n, a) => n + a.size, 0);
+  }
+
+  globalMaintenanceWindows(): number {
+    return this.maintenance.length;
+  }
+
   /** Severity of a score under this set's limits (alert/severity.ts has the built-in mapping). */
   severity(score: number): Severity {
     const l = this.severityLimits;

@@ -5,6 +5,7 @@ import { WindowAggregator, type ClosedWindow } from '../window/aggregator.js';
 import { DetectorEngine, QUIET_WINDOWS } from '../detect/engine.js';
 import type { Floors } from '../detect/thresholds.js';
 import { CidrSet } from '../util/addr.js';
+import type { RuleSet } from '../rules/ruleset.js';
 
 export interface SensorOptions {
   windowMs: number;
@@ -18,6 +19,8 @@ export interface SensorOptions {
   enabled?: readonly string[];
   /** train: learn baselines and peer history, emit nothing. */
   learnOnly?: boolean;
+  /** Rule files (rules/ruleset.ts); absent = the built-in defaults. */
+  rules?: RuleSet;
 }
 
 /**
@@ -38,7 +41,14 @@ export class Sensor {
     );
     this.engine = new DetectorEngine(this.aggregator, {
       alpha: opts.alpha, windowMs: opts.windowMs, floors: opts.floors, enabled: opts.enabled, learnOnly: opts.learnOnly,
+      rules: opts.rules,
     });
+    const rules = opts.rules;
+    // the tracker maps scores with the built-in limits; a rule set's own limits re-map here
+    if (rules && !rules.hasDefaultSeverity()) {
+      const inner = emit;
+      emit = (a) => inner({ ...a, severity: rules.severity(a.score) });
+    }
     this.tracker = new EpisodeTracker({
       windowMs: opts.windowMs, sensor: opts.sensor, mode: opts.mode,
       maxAlertsPerHour: opts.maxAlertsPerHour, closeAfterQuietWindows: QUIET_WINDOWS,
