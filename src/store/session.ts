@@ -1,0 +1,106 @@
+import type { Alert } from '../alert/alert.js';
+import { alertToJson } from '../alert/serialize.js';
+import type { Sensor } from '../sensor/sensor.js';
+import type { ClosedWindow } from '../window/aggregator.js';
+import { usageError } from '../cli/exit.js';
+import { restoreCheckpoint, saveCheckpoint } from './checkpoint.js';
+import { fromJson, toJson } from './codec.js';
+import { LabelFilter, type Filtered, type LabelDecision } from './labels.js';
+import { StateError, StateStore } from './store.js';
+
+export interface SensorStateOptions {
+  /** Lines suppressed by a benign label still go to the outputs (carrying `suppressed_by`). */
+  showSuppressed?: boolean;
+}
+
+/**
+ * `--state FILE` for the commands that run the sensor. Restores the checkpoint into the sensor, passes
+ * alerts through the label filter, stores each closed window's alert lines, hosts and peers in one
+ * transaction, and at the end of input suspends the sensor and writes the checkpoint.
+ */
+export class SensorState {
+  readonly store: StateStore;
+  /** A checkpoint was loaded (the sensor continues a previous run). */
+  restored = false;
+  private filter: LabelFilter;
+  private sensor: Sensor | null = null;
+  private pending: Filtered[] = [];
+  private readonly peers = new Set<number>();
+
+  private constructor(store: StateStore, private readonly opts: SensorStateOptions) {
+    this.store = store;
+    this.filter = new LabelFilter(store.labels());
+  }
+
+  /** Opens the state file; a file that cannot be used is a usage error (exit 2). */
+  static open(path: string, opts: SensorStateOptions = {}): SensorState {
+    return asUsage(() => new SensorState(StateStore.open(path), opts));
+  }
+
+  /** The sensor's emit: labels applied, lines kept for the window's transaction, shown ones passed on. */
+  emitter(out: (a: Alert) => void): (a: Alert) => void {
+    return (a) => {
+      const f = this.filter.apply(a);
+      this.pending.push(f);
+      if (f.suppressedBy === null || this.opts.showSuppressed) out(f.alert);
+    };
+  }
+
+  /** Restores the checkpoint into a sensor built with emitter() and hooks its window closes. */
+  attach(sensor: Sensor): void {
+    this.sensor = sensor;
+    this.restored = asUsage(() => restoreCheckpoint(this.store, sensor));
+    const decisions = this.store.getState('labels');
+    if (decisions) this.filter = new LabelFilter(this.store.labels(), fromJson<[string, LabelDecision][]>(decisions));
+    const before = sensor.onWindowClosed;
+    sensor.onWindowClosed = (w) => {
+      this.store.transaction(() => this.writeWindow(w));
+      before?.(w);
+    };
+  }
+
+  /** End of input: windows close, open episodes stay open, and everything is checkpointed. */
+  suspend(): void {
+    const sensor = this.sensor;
+    if (!sensor) throw new Error('SensorState.suspend before attach');
+    sensor.suspend();
+    this.store.transaction(() => {
+      this.flushAlerts();
+      saveCheckpoint(this.store, sensor);
+      this.store.putState('labels', toJson(this.filter.openDecisions()));
+    });
+  }
+
+  close(): void {
+    this.store.close();
+  }
+
+  private writeWindow(w: ClosedWindow): void {
+    this.flushAlerts();
+    const agg = this.sensor!.aggregator;
+    const name = (id: number) => agg.addresses.name(id);
+    for (const acc of w.hosts) {
+      const host = name(acc.hostId);
+      this.store.touchHost(host, agg.isInsideId(acc.hostId), w.start);
+      if (!acc.pairSet) continue;
+      // pairSet keys are peer * 65536 + port (window/host-acc.ts); bounded per host-window
+      this.peers.clear();
+      for (const k of acc.pairSet) this.peers.add(Math.floor(k / 65536));
+      for (const p of this.peers) this.store.touchPeer(host, name(p), w.start);
+    }
+  }
+
+  private flushAlerts(): void {
+    for (const f of this.pending) this.store.putAlert(f.alert, alertToJson(f.alert), f.suppressedBy);
+    this.pending = [];
+  }
+}
+
+function asUsage<T>(fn: () => T): T {
+  try {
+    return fn();
+  } catch (e) {
+    if (e instanceof StateError) throw usageError(`--state: ${e.message}`);
+    throw e;
+  }
+}
