@@ -16,14 +16,23 @@ export class Decoder {
   readonly stats = new DecodeStats();
   private readonly ip = new IpLayer(this.view, this.stats);
   private tags = 0;
+  // Readers hand over Buffers (file chunks) and plain Uint8Arrays (carry buffers, replayed heads). Seen
+  // through one plain Uint8Array view per chunk, every byte access here stays monomorphic.
+  private lastChunk: Uint8Array | null = null;
+  private lastPlain: Uint8Array = new Uint8Array(0);
 
   /** Decodes `capLen` bytes at `off` of `buf` captured on link type `linkType`; false when skipped. */
   decode(buf: Uint8Array, off: number, capLen: number, linkType: number): boolean {
     this.stats.packets++;
     this.view.vlan = -1;
     this.tags = 0;
-    const end = off + capLen > buf.length ? buf.length : off + capLen;
-    const ok = this.link(buf, off, end, linkType);
+    if (buf !== this.lastChunk) {
+      this.lastChunk = buf;
+      this.lastPlain = buf.constructor === Uint8Array ? buf : new Uint8Array(buf.buffer, buf.byteOffset, buf.length);
+    }
+    const b = this.lastPlain;
+    const end = off + capLen > b.length ? b.length : off + capLen;
+    const ok = this.link(b, off, end, linkType);
     if (ok) this.stats.decoded++;
     return ok;
   }

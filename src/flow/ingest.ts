@@ -21,12 +21,14 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
     maxFlows: opts.maxFlows,
     exporter: inputLabel(src.name),
   }, sink);
-  let firstMs = NaN, lastMs = NaN;
+  // event-time span [first, last] in a typed array: a double kept in a closure variable would be
+  // boxed anew on every store
+  const span = Float64Array.of(NaN, NaN);
   // one closure per input, none per packet
   const onPacket: PacketSink = (buf, off, capLen, _origLen, tsSec, tsNs, linkType) => {
     const ts = tsSec * 1000 + tsNs / 1e6;
-    if (!(ts >= firstMs)) firstMs = ts;
-    if (!(ts <= lastMs)) lastMs = ts;
+    if (!(ts >= span[0]!)) span[0] = ts;
+    if (!(ts <= span[1]!)) span[1] = ts;
     if (decoder.decode(buf, off, capLen, linkType)) table.add(view, ts);
     else table.advance(ts);
   };
@@ -50,8 +52,8 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
     records: cap.packets,
     bytes: ts.bytes,
     flows: ts.records,
-    firstMs,
-    lastMs,
+    firstMs: span[0]!,
+    lastMs: span[1]!,
     problemCounts: sortedKeys(problemCounts),
     truncated: cap.truncated,
     counters: {
