@@ -5,6 +5,7 @@ import { DEFAULT_INGEST, INPUT_FORMATS, type IngestOptions, type IngestSummary, 
 import { formatProblem, type InputProblem } from '../util/problem.js';
 import { parseDuration, rfc3339 } from '../util/time.js';
 import { inputError, usageError } from './exit.js';
+import { Progress } from './progress.js';
 
 /** Problems printed one per line on stderr; the rest are only counted. */
 const PRINTED_PROBLEMS = 20;
@@ -40,15 +41,18 @@ export function register(program: Command): void {
 async function runFlows(inputs: string[], o: FlowsOptions): Promise<void> {
   if (o.format !== 'jsonl' && o.format !== 'csv') throw usageError(`--format must be jsonl or csv, not ${o.format}`);
   const problems = { printed: 0, more: 0 };
+  // records printed on the same terminal would break a redrawn line: progress only when stdout goes elsewhere
+  const progress = new Progress({ quiet: o.quiet === true || process.stdout.isTTY === true });
   const onProblem = (p: InputProblem) => {
     // a fatal problem at the first byte is the exit line instead
     if (o.quiet || (p.fatal && p.offset === 0)) return;
     if (problems.printed < PRINTED_PROBLEMS) {
       problems.printed++;
+      progress.clear();
       process.stderr.write(`${formatProblem(p)}\n`);
     } else problems.more++;
   };
-  const opts: IngestOptions = { ...ingestOptions(o), onProblem };
+  const opts: IngestOptions = { ...ingestOptions(o), onProblem, onSource: (src) => progress.watch(src) };
   // the reader of our output went away (`| head`): nothing more to do, as with SIGPIPE in C tools
   process.stdout.on('error', (e: NodeJS.ErrnoException) => {
     if (e.code === 'EPIPE') process.exit(0);
@@ -64,6 +68,8 @@ async function runFlows(inputs: string[], o: FlowsOptions): Promise<void> {
       await writer.drained();
       // ingestInput throws one-line errors only for inputs it cannot open or recognise
       throw inputError(e instanceof Error ? e.message : String(e));
+    } finally {
+      progress.stop();
     }
     await writer.drained();
     if (summary.stoppedBy && summary.stoppedBy.offset === 0) {

@@ -1,9 +1,11 @@
 import type { Command } from 'commander';
+import type { Alert } from '../alert/alert.js';
 import { Sensor } from '../sensor/sensor.js';
 import { AlertOutput } from './alert-output.js';
 import { addSensorOptions, defaultLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { describeInputs, runInputs } from './run-inputs.js';
 import { EXIT_ALERTS, EXIT_INPUT, inputError } from './exit.js';
+import { Progress } from './progress.js';
 
 interface ReplayRaw extends RawSensorOptions {
   out?: string; format?: string; color?: boolean; failOnAlert?: boolean;
@@ -22,10 +24,13 @@ export function register(program: Command): void {
   addSensorOptions(cmd).action(async (inputs: string[], raw: ReplayRaw) => {
     const parsed = parseSensorOptions(raw);
     const output = new AlertOutput({ format: raw.format, out: raw.out, color: raw.color });
-    const sensor = new Sensor({ ...parsed.sensor, mode: 'replay', latenessMs: parsed.latenessMs ?? 5_000 }, output.emit);
+    const progress = new Progress({ quiet: parsed.quiet });
+    // alerts printed on the terminal must not land on the progress line
+    const emit = (a: Alert) => { progress.clear(); output.emit(a); };
+    const sensor = new Sensor({ ...parsed.sensor, mode: 'replay', latenessMs: parsed.latenessMs ?? 5_000 }, emit);
     sensor.onWindowClosed = () => output.sync();
     const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
-      windowMs: parsed.sensor.windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet,
+      windowMs: parsed.sensor.windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet, progress,
       onFormat: (f) => sensor.setLateness(parsed.latenessMs ?? defaultLateness(f)),
     });
     sensor.finish();

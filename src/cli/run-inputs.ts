@@ -3,6 +3,7 @@ import { DEFAULT_INGEST, type IngestSummary, type InputFormat } from '../ingest/
 import type { FlowSink } from '../flow/record.js';
 import { formatProblem, type InputProblem } from '../util/problem.js';
 import { rfc3339 } from '../util/time.js';
+import { Progress } from './progress.js';
 
 const MAX_PRINTED_PROBLEMS = 20;
 
@@ -11,6 +12,8 @@ export interface RunInputsOptions {
   inputFormat?: InputFormat;
   quiet: boolean;
   onFormat?: (f: InputFormat) => void;
+  /** Shows reading progress (default: one of our own, silent with `quiet`); pass one to clear it before other output. */
+  progress?: Progress;
 }
 
 export interface RunInputsResult {
@@ -27,8 +30,10 @@ export async function runInputs(inputs: readonly string[], sink: FlowSink, o: Ru
   const summaries: IngestSummary[] = [];
   const unreadable: string[] = [];
   let printed = 0;
+  const progress = o.progress ?? new Progress({ quiet: o.quiet });
   const onProblem = (p: InputProblem) => {
     if (o.quiet) return;
+    progress.clear();
     if (printed < MAX_PRINTED_PROBLEMS) process.stderr.write(`tidewatch: ${formatProblem(p)}\n`);
     else if (printed === MAX_PRINTED_PROBLEMS) process.stderr.write('tidewatch: further problems are counted in the summary only\n');
     printed++;
@@ -37,12 +42,16 @@ export async function runInputs(inputs: readonly string[], sink: FlowSink, o: Ru
     try {
       const s = await ingestInput(name, sink, {
         ...DEFAULT_INGEST, windowMs: o.windowMs, inputFormat: o.inputFormat, onProblem, onFormat: o.onFormat,
+        onSource: (src) => progress.watch(src),
       });
       summaries.push(s);
       if (s.stoppedBy && s.stoppedBy.offset === 0 && s.packets === 0 && s.records === 0) unreadable.push(name);
     } catch (e) {
+      progress.clear();
       process.stderr.write(`tidewatch: ${(e as Error).message}\n`);
       unreadable.push(name);
+    } finally {
+      progress.stop();
     }
   }
   return { summaries, unreadable };

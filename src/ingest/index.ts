@@ -33,6 +33,7 @@ export async function ingestInput(name: string, sink: FlowSink, opts: IngestOpti
     throw new Error(`${name}: ${format} input is not supported yet`);
   }
   opts.onFormat?.(format);
+  opts.onSource?.(src);
   try {
     return await fn(src, sink, opts);
   } finally {

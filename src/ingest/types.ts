@@ -17,6 +17,8 @@ export interface IngestOptions {
   onFormat?: (format: InputFormat) => void;
   /** Called for every problem as it is met (the CLI prints them, bounded). */
   onProblem?: (p: InputProblem) => void;
+  /** Called with the opened source before its first record (progress polls its size and consumed()). */
+  onSource?: (src: ByteSource) => void;
 }
 
 export const DEFAULT_INGEST: IngestOptions = {
