@@ -195,6 +195,13 @@ describe('FlowTable: window cuts, timeouts and the cap', () => {
     expect(out.map((r) => r.sport).sort()).toEqual([1, 2, 3]);
   });
 
+  it('eviction takes a small batch even when every held flow was last seen at the same time', () => {
+    const { table, send } = harness({ maxFlows: 64 });
+    for (let i = 0; i < 65; i++) send(u4(C, S, 1000 + i, 53), T0);
+    expect(table.stats.evicted).toBe(2); // ceil(64 / 32)
+    expect(table.stats.active).toBe(63);
+  });
+
   it('many flows through a small table: every packet is accounted for (index deletes stay consistent)', () => {
     const { out, table } = harness({ maxFlows: 300, windowMs: 0, idleTimeoutMs: 5_000 });
     const d = new Decoder();

@@ -363,7 +363,11 @@ export class FlowTable {
     return f;
   }
 
-  /** The table is full: emit and drop the least recently seen flows (a small batch, one scan). */
+  /**
+   * The table is full: emit and drop a small batch (about 1/32 of the held flows) of the least recently
+   * seen, all from the oldest 1/32 of the time range the held flows span. Two scans, amortised over the
+   * batch.
+   */
   private evictOldest(): void {
     const u = this.u, dd = this.d;
     let lo = Infinity, hi = -Infinity;
@@ -374,9 +378,11 @@ export class FlowTable {
       if (t > hi) hi = t;
     }
     const cutoff = lo + (hi - lo) * EVICT_FRACTION;
-    for (let f = 0; f < this.highWater; f++) {
+    let budget = Math.max(1, Math.ceil(this.stats.active * EVICT_FRACTION));
+    for (let f = 0; f < this.highWater && budget > 0; f++) {
       if (u[f * W + W_META] !== 0 && dd[f * D + D_LAST]! <= cutoff) {
         this.stats.evicted++;
+        budget--;
         this.remove(f);
       }
     }
