@@ -139,11 +139,16 @@ class Compiler {
   private floors(f: Field, detector: AlertKind, scope: string): Partial<Floors> | null {
     const readable = floorsReadBy(detector);
     if (readable.length === 0) return this.fc.error(f.key, `detector ${detector} reads no floors`);
-    const m = this.fc.map(f.value, `floors of ${detector}`, readable, f.key);
+    const m = this.fc.map(f.value, `floors of ${detector}`, Object.keys(FLOOR_SPECS), f.key);
     if (!m) return null;
     const out: Partial<Floors> = {};
     let ok = true;
     for (const [name, e] of m) {
+      if (!readable.includes(name as FloorName)) {
+        this.fc.error(e.key, `floor '${name}' is not read by ${detector} (it reads ${readable.join(', ')})`);
+        ok = false;
+        continue;
+      }
       const v = this.fc.num(e.value, name, e.key);
       if (v === null) { ok = false; continue; }
       const problem = floorRangeProblem(name as FloorName, v);
