@@ -7,6 +7,9 @@ import { register as registerEval } from './eval.js';
 import { register as registerDemo } from './demo.js';
 import { register as registerReport } from './report.js';
 import { register as registerRules } from './rules.js';
+import { register as registerTrain } from './train.js';
+import { register as registerAlerts } from './alerts.js';
+import { register as registerLabel } from './label.js';
 
 const program = new Command();
 program
@@ -23,6 +26,9 @@ registerEval(program);
 registerDemo(program);
 registerReport(program);
 registerRules(program);
+registerTrain(program);
+registerAlerts(program);
+registerLabel(program);
 
 async function run(): Promise<void> {
   try {

@@ -6,9 +6,10 @@ import { addSensorOptions, defaultLateness, parseSensorOptions, type RawSensorOp
 import { describeInputs, runInputs } from './run-inputs.js';
 import { EXIT_ALERTS, EXIT_INPUT, inputError } from './exit.js';
 import { Progress } from './progress.js';
+import { SensorState } from '../store/session.js';
 
 interface ReplayRaw extends RawSensorOptions {
-  out?: string; format?: string; color?: boolean; failOnAlert?: boolean;
+  out?: string; format?: string; color?: boolean; failOnAlert?: boolean; state?: string; showSuppressed?: boolean;
 }
 
 /** `tidewatch replay INPUT...`: the main job, captures or flow files in, the alert feed out. */
@@ -20,20 +21,25 @@ export function register(program: Command): void {
     .option('--out <file>', 'also append alerts (JSON lines) to FILE')
     .option('--format <fmt>', 'jsonl or pretty (default: pretty on a terminal, jsonl otherwise)')
     .option('--no-color', 'no colour in pretty output')
-    .option('--fail-on-alert', 'exit 1 when any alert was raised');
+    .option('--fail-on-alert', 'exit 1 when any alert was raised')
+    .option('--state <file>', 'continue from and save to a state file (SQLite, mode 0600): baselines, peers, open episodes, alerts, labels')
+    .option('--show-suppressed', 'with --state: also output lines suppressed by a benign label (evidence suppressed_by)');
   addSensorOptions(cmd).action(async (inputs: string[], raw: ReplayRaw) => {
     const parsed = parseSensorOptions(raw);
     const output = new AlertOutput({ format: raw.format, out: raw.out, color: raw.color });
     const progress = new Progress({ quiet: parsed.quiet });
     // alerts printed on the terminal must not land on the progress line
     const emit = (a: Alert) => { progress.clear(); output.emit(a); };
-    const sensor = new Sensor({ ...parsed.sensor, mode: 'replay', latenessMs: parsed.latenessMs ?? 5_000 }, emit);
+    const state = raw.state !== undefined ? SensorState.open(raw.state, { showSuppressed: raw.showSuppressed }) : null;
+    const sensor = new Sensor({ ...parsed.sensor, mode: 'replay', latenessMs: parsed.latenessMs ?? 5_000 }, state ? state.emitter(emit) : emit);
     sensor.onWindowClosed = () => output.sync();
+    state?.attach(sensor);
     const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
       windowMs: parsed.sensor.windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet, progress,
       onFormat: (f) => sensor.setLateness(parsed.latenessMs ?? defaultLateness(f)),
     });
-    sensor.finish();
+    // with state, open episodes continue in the next run instead of closing here
+    if (state) { state.suspend(); state.close(); } else sensor.finish();
     await output.close();
     if (!parsed.quiet) {
       for (const l of describeInputs(summaries)) process.stderr.write(`${l}\n`);
