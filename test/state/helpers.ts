@@ -1,3 +1,5 @@
+import { spawnSync } from 'node:child_process';
+import { readFileSync, writeFileSync } from 'node:fs';
 import Database from 'better-sqlite3';
 import { ingestInput } from '../../src/ingest/index.js';
 import { DEFAULT_INGEST } from '../../src/ingest/types.js';
@@ -57,4 +59,37 @@ export function learnedState(db: string): Record<string, unknown> {
   } finally {
     d.close();
   }
+}
+
+export const CLI = new URL('../../dist/src/cli/main.js', import.meta.url).pathname;
+
+/** Runs the built CLI (`npm test` builds first). */
+export function cli(args: string[], input?: string): { status: number | null; stdout: string; stderr: string } {
+  const r = spawnSync(process.execPath, [CLI, ...args], { encoding: 'utf8', input, maxBuffer: 64 * 1024 * 1024 });
+  return { status: r.status, stdout: r.stdout, stderr: r.stderr };
+}
+
+/**
+ * Splits a classic little-endian microsecond pcap (the generator's) at a time: packets before `ms` go
+ * to `a`, the rest to `b`, each with the file header. Record layout: draft-ietf-opsawg-pcap section 5
+ * (16-octet record header: seconds, microseconds, captured length, original length).
+ */
+export function splitPcap(file: string, ms: number, a: string, b: string): void {
+  const buf = readFileSync(file);
+  let o = 24;
+  while (o + 16 <= buf.length) {
+    const t = buf.readUInt32LE(o) * 1000 + buf.readUInt32LE(o + 4) / 1000;
+    if (t >= ms) break;
+    o += 16 + buf.readUInt32LE(o + 8);
+  }
+  writeFileSync(a, buf.subarray(0, o));
+  writeFileSync(b, Buffer.concat([buf.subarray(0, 24), buf.subarray(o)]));
+}
+
+/** id, state, end and score of each JSON line: what two feeds must agree on. */
+export function lineKeys(jsonl: string): string[] {
+  return jsonl.split('\n').filter(Boolean).map((l) => {
+    const a = JSON.parse(l) as Alert;
+    return `${a.id} ${a.state} ${a.end} ${a.score}`;
+  });
 }
