@@ -32,6 +32,14 @@ describe('JsonLineEncoder', () => {
     }), { numRuns: 500 });
   });
 
+  it('long strings grow the buffer instead of being cut', () => {
+    const enc = new JsonLineEncoder(64);
+    const r: FlowRecord = { start: 1, end: 2, proto: 6, src: 'a'.repeat(5000), dst: 'é'.repeat(3000), sport: 1, dport: 2, pkts: 1, bytes: 40, rpkts: 0, rbytes: 0, flags: 2, rflags: 0, outcome: 'unanswered', exporter: 'b'.repeat(7000) };
+    enc.write(r);
+    enc.write({ ...r, dst: 'c'.repeat(9000) });
+    expect(enc.take().toString('utf8')).toBe(`${flowToJson(r)}\n${flowToJson({ ...r, dst: 'c'.repeat(9000) })}\n`);
+  });
+
   it('take() hands over the bytes and starts empty', () => {
     const enc = new JsonLineEncoder();
     const r: FlowRecord = { start: 1.5, end: 2, proto: 17, src: '10.60.1.5', dst: '198.51.100.7', sport: 1, dport: 53, pkts: 1, bytes: 60, rpkts: 0, rbytes: 0, flags: 0, rflags: 0, outcome: 'unanswered', exporter: 'x.pcap' };

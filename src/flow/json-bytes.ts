@@ -1,8 +1,8 @@
 import { flowToJson } from './format.js';
 import type { FlowRecord } from './record.js';
 
-/** Bytes reserved per line before writing one (the longest line with a short exporter is under 300). */
-const LINE_RESERVE = 512;
+/** Room for a line's keys and numbers (nine numbers of at most 24 characters plus about 200 of keys). */
+const LINE_FIXED = 512;
 
 /**
  * Writes FlowRecords as JSON lines straight into a byte buffer: the same text as `flowToJson` plus a
@@ -35,14 +35,16 @@ export class JsonLineEncoder {
   }
 
   write(r: FlowRecord): void {
-    const exporterLen = r.exporter.length;
-    if (this.pos + LINE_RESERVE + 6 * exporterLen > this.buf.length) this.growFor(LINE_RESERVE + 6 * exporterLen);
     if (!(plain(r.src) && plain(r.dst) && plain(r.exporter))) {
       const line = Buffer.from(`${flowToJson(r)}\n`, 'utf8');
+      if (this.pos + line.length > this.buf.length) this.growFor(line.length);
       this.buf.set(line, this.pos);
       this.pos += line.length;
       return;
     }
+    // plain strings are one octet per character
+    const need = LINE_FIXED + r.src.length + r.dst.length + r.outcome.length + r.exporter.length;
+    if (this.pos + need > this.buf.length) this.growFor(need);
     const b = this.buf, v = this.dv;
     let p = this.pos;
     p = key(b, v, p, K_START); p = num(b, p, r.start);
