@@ -2,7 +2,8 @@
  * `npm run bench`: generates the benchmark capture once, then runs each bench in `benches` in its own
  * child process and prints one table. Targets (the project's): >= 3.5 M packets/s for the capture path,
  * >= 5x the pcap-parser packet loop, peak RSS <= 300 MB. Other benches (replay, IPFIX) add entries.
- * Options: --packets N (default 3 M), --keep (leave the capture in the temp folder).
+ * Options: --packets N (default 3 M), --repeat N (run each bench N times, report the fastest; default 1),
+ * --keep (leave the capture in the temp folder).
  */
 import { spawnSync } from 'node:child_process';
 import { closeSync, existsSync, mkdtempSync, openSync, rmSync, statSync } from 'node:fs';
@@ -14,6 +15,8 @@ import { DEFAULT_GEN, generateCapture } from './gen-capture.js';
 const args = process.argv.slice(2);
 const packetsArg = args.indexOf('--packets');
 const packets = packetsArg >= 0 ? Number(args[packetsArg + 1]) : DEFAULT_GEN.packets;
+const repeatArg = args.indexOf('--repeat');
+const repeat = repeatArg >= 0 ? Math.max(1, Number(args[repeatArg + 1])) : 1;
 
 interface Measure { packets: number; ms: number; cpuMs: number; maxRssKB: number; flows?: number }
 interface Bench { name: string; input: 'capture'; run(file: string): Measure }
@@ -60,7 +63,14 @@ try {
   const size = statSync(file).size;
   process.stdout.write(`capture: ${gen.packets} packets, ${gen.flows} generated flows, ${(size / 1e6).toFixed(1)} MB, written in ${((Date.now() - t) / 1000).toFixed(1)} s (${file})\n\n`);
   const rows: [string, Measure][] = [];
-  for (const b of benches) rows.push([b.name, b.run(file)]);
+  for (const b of benches) {
+    let best = b.run(file);
+    for (let i = 1; i < repeat; i++) {
+      const m = b.run(file);
+      if (m.ms < best.ms) best = m;
+    }
+    rows.push([b.name, best]);
+  }
   const base = rows.find(([n]) => n === BASELINE)?.[1];
   const pps = (m: Measure) => m.packets / (m.ms / 1000);
   const cpuPps = (m: Measure) => m.packets / (m.cpuMs / 1000);
@@ -75,7 +85,7 @@ try {
   process.stdout.write(`${line(head)}\n${widths.map((w) => '-'.repeat(w)).join('  ')}\n${table.map(line).join('\n')}\n`);
   process.stdout.write('\ntargets: capture path >= 3.5 M packets/s, >= 5x pcap-parser, peak RSS <= 300 MB\n');
   process.stdout.write('seconds = wall time (in the child, startup excluded, except for the whole-process CLI row); CPU s = user + system time of the child;\n'
-    + 'the machine is shared, so compare rows of one run rather than runs.\n');
+    + `the machine is shared, so compare rows of one run rather than runs${repeat > 1 ? ` (fastest of ${repeat} runs each)` : ''}.\n`);
 } finally {
   if (!args.includes('--keep')) rmSync(dir, { recursive: true, force: true });
 }
