@@ -31,7 +31,7 @@ export class FileCheck {
 
   /** A mapping with only `keys`; unknown keys are errors at the key. */
   map(node: YNode, what: string, keys: readonly string[], fallback?: YNode): Map<string, Field> | null {
-    if (!isMap(node)) return this.error(node, `${what} must be a mapping, got ${describe(node)}`, fallback);
+    if (!isMap(node)) return this.error(node, `${what} must be a mapping, got ${describeNode(node)}`, fallback);
     const out = new Map<string, Field>();
     for (const pair of node.items as Pair<Node, YNode>[]) {
       const k = pair.key;
@@ -46,28 +46,28 @@ export class FileCheck {
   }
 
   list(f: Field, what: string): Node[] | null {
-    if (!isSeq(f.value)) return this.error(f.value, `${what} must be a list, got ${describe(f.value)}`, f.key);
+    if (!isSeq(f.value)) return this.error(f.value, `${what} must be a list, got ${describeNode(f.value)}`, f.key);
     return f.value.items as Node[];
   }
 
   str(node: YNode, what: string, fallback?: YNode): string | null {
     if (isScalar(node) && typeof node.value === 'string') return node.value;
-    return this.error(node, `${what} must be a string, got ${describe(node)}`, fallback);
+    return this.error(node, `${what} must be a string, got ${describeNode(node)}`, fallback);
   }
 
   bool(f: Field, what: string): boolean | null {
     if (isScalar(f.value) && typeof f.value.value === 'boolean') return f.value.value;
-    return this.error(f.value, `${what} must be true or false, got ${describe(f.value)}`, f.key);
+    return this.error(f.value, `${what} must be true or false, got ${describeNode(f.value)}`, f.key);
   }
 
   num(node: YNode, what: string, fallback?: YNode): number | null {
     if (isScalar(node) && typeof node.value === 'number' && Number.isFinite(node.value)) return node.value;
-    return this.error(node, `${what} must be a number, got ${describe(node)}`, fallback);
+    return this.error(node, `${what} must be a number, got ${describeNode(node)}`, fallback);
   }
 }
 
 /** What a node is, for messages: "a string ('x')", "a list", "nothing". */
-export function describe(node: YNode): string {
+export function describeNode(node: YNode): string {
   if (node === null || node === undefined) return 'nothing';
   if (isMap(node)) return 'a mapping';
   if (isSeq(node)) return 'a list';

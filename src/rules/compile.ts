@@ -3,7 +3,7 @@ import { ALERT_KINDS, type AlertKind } from '../detect/finding.js';
 import type { Floors } from '../detect/thresholds.js';
 import { CidrSet, parseCidr, type Cidr } from '../util/addr.js';
 import { Allowlist, parsePeerPair, type PeerPair, type PortRange } from './allowlist.js';
-import { describe, type Field, type FileCheck, type YNode } from './check.js';
+import { describeNode, type Field, type FileCheck, type YNode } from './check.js';
 import { FLOOR_SPECS, floorRangeProblem, floorsReadBy, type FloorName } from './floors.js';
 import type { Rule, RuleSetParts, SeverityLimits } from './ruleset.js';
 import type { RuleSource } from './source.js';
@@ -199,27 +199,31 @@ class Compiler {
   private allowlist(f: Field): Allowlist | null {
     const m = this.fc.map(f.value, 'allow', ALLOW_KEYS, f.key);
     if (!m) return null;
-    let ok = true;
-    const hosts: string[] = [];
-    const ports: PortRange[] = [];
-    const pairs: PeerPair[] = [];
-    const hf = m.get('hosts'), pf = m.get('ports'), qf = m.get('pairs');
-    if (hf) for (const n of this.fc.list(hf, 'hosts') ?? (ok = false, [])) {
-      const c = this.cidr(n, 'hosts');
-      if (c) hosts.push(c.text); else ok = false;
+    const hosts = this.each(m.get('hosts'), 'hosts', (n) => this.cidr(n, 'hosts')?.text ?? null);
+    const ports = this.each(m.get('ports'), 'ports', (n) => this.portRange(n));
+    const pairs = this.each(m.get('pairs'), 'pairs', (n) => this.peerPair(n));
+    if (!hosts || !ports || !pairs) return null;
+    return new Allowlist(hosts.length ? new CidrSet(hosts) : null, ports, pairs);
+  }
+
+  /** Every item of an optional list through `read`; null when the list or any item was bad. */
+  private each<T>(f: Field | undefined, what: string, read: (n: Node) => T | null): T[] | null {
+    if (!f) return [];
+    const items = this.fc.list(f, what);
+    if (!items) return null;
+    const out: T[] = [];
+    for (const n of items) {
+      const v = read(n);
+      if (v !== null) out.push(v);
     }
-    if (pf) for (const n of this.fc.list(pf, 'ports') ?? (ok = false, [])) {
-      const r = this.portRange(n);
-      if (r) ports.push(r); else ok = false;
-    }
-    if (qf) for (const n of this.fc.list(qf, 'pairs') ?? (ok = false, [])) {
-      const s = this.fc.str(n, 'a peer pair');
-      if (s === null) { ok = false; continue; }
-      const p = parsePeerPair(s, (t) => parseCidr(t) !== null);
-      if (!p) { this.fc.error(n, `peer pair malformed: '${s}' (expected 'ADDRESS -> ADDRESS' or 'ADDRESS <-> ADDRESS', CIDRs allowed)`); ok = false; continue; }
-      pairs.push(p);
-    }
-    return ok ? new Allowlist(hosts.length ? new CidrSet(hosts) : null, ports, pairs) : null;
+    return out.length === items.length ? out : null;
+  }
+
+  private peerPair(n: Node): PeerPair | null {
+    const s = this.fc.str(n, 'a peer pair');
+    if (s === null) return null;
+    return parsePeerPair(s, (t) => parseCidr(t) !== null)
+      ?? this.fc.error(n, `peer pair malformed: '${s}' (expected 'ADDRESS -> ADDRESS' or 'ADDRESS <-> ADDRESS', CIDRs allowed)`);
   }
 
   private portRange(n: Node): PortRange | null {
@@ -235,7 +239,7 @@ class Compiler {
       if (lo > hi) return this.fc.error(n, `port range ${n.value} runs backwards`);
       return { lo, hi };
     }
-    return this.fc.error(n, `port must be a number or a range LOW-HIGH, got ${describe(n)}`);
+    return this.fc.error(n, `port must be a number or a range LOW-HIGH, got ${describeNode(n)}`);
   }
 
   private weekly(f: Field): Weekly | null {
@@ -276,6 +280,7 @@ class Compiler {
       if (s === null) return null;
       const i = parseWeekday(s);
       if (i === null) return this.fc.error(d, `bad weekday '${s}' (expected ${WEEKDAYS.join(', ')})`);
+      if (days.includes(i)) return this.fc.error(d, `weekday '${s}' is listed twice`);
       days.push(i);
     }
     const from = this.clock(ff, 'from', false), to = this.clock(tf, 'to', true);

@@ -60,6 +60,17 @@ describe('malformed rule files give file:line:column: reason', () => {
     expect(errors).toContain(`${BAD}/unknown-key.yaml:3:15: detector volume-surge already has a rule at ${BAD}/bad-cidr.yaml:3:15`);
   });
 
+  it('JSON rule files read the same way, positions included', () => {
+    const file = ruleFile('{\n  "rules": [\n    {"id": "volume-surge", "detector": "volume-surge", "floors": {"bytes": "2MB"}}\n  ]\n}\n', 'site.json');
+    expect(loadRules(file)).toEqual({ errors: [`${file}:3:76: bytes must be a number, got a string ('2MB')`] });
+    expect(loadRules(ruleFile('{"rules": [{"id": "a", "detector": "traffic-shift", "enabled": false}]}', 'ok.json'))).toHaveProperty('ok');
+  });
+
+  it('a weekday listed twice in one range is an error', () => {
+    const file = ruleFile('maintenance: { zone: UTC, weekly: [{ days: [sun, Sunday], from: "01:00", to: "02:00" }] }\n');
+    expect(loadRules(file)).toEqual({ errors: [`${file}:1:50: weekday 'Sunday' is listed twice`] });
+  });
+
   it('a missing path and an empty folder are errors too', () => {
     expect(loadRules('test/rules/no-such')).toEqual({ errors: ['test/rules/no-such:1:1: no such file or folder'] });
     const dir = ruleFile('', 'notes.txt').replace(/\/notes\.txt$/, '');
