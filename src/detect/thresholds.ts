@@ -48,7 +48,8 @@ export function thresholdsFor(alpha: number): Thresholds {
 
 /**
  * Minimum effect sizes and the population prior for hosts without a ready baseline (common practice,
- * no source: METHODS.md 7.7 "minimum effect size"). Rule files may override them.
+ * no source: METHODS.md 7.7 "minimum effect size"). Rule files may override them (docs/rules.md;
+ * src/rules/floors.ts says which detector reads each and checks its range).
  */
 export interface Floors {
   /** volume-surge: per-window minimums and the minimum ratio to the expected value. */
