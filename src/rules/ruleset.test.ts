@@ -2,7 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { DEFAULT_FLOORS } from '../detect/thresholds.js';
 import type { Finding } from '../detect/finding.js';
 import { RuleSet } from './ruleset.js';
-import { rulesFrom } from './test-helpers.js';
+import { rulesFrom } from './testing.js';
 
 function finding(over: Partial<Finding> & { peer?: string; port?: number } = {}): Finding {
   const { peer, port, ...rest } = over;

@@ -2,7 +2,7 @@ import { writeFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
 import { loadRules } from '../../src/rules/load.js';
 import { MAX_RULE_FILE_BYTES } from '../../src/rules/source.js';
-import { ruleFile } from '../../src/rules/test-helpers.js';
+import { ruleFile } from '../../src/rules/testing.js';
 
 const BAD = 'test/rules/bad';
 

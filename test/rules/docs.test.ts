@@ -1,7 +1,7 @@
 import { readFileSync } from 'node:fs';
 import { expect, it } from 'vitest';
 import { loadRules } from '../../src/rules/load.js';
-import { ruleFile } from '../../src/rules/test-helpers.js';
+import { ruleFile } from '../../src/rules/testing.js';
 
 const doc = readFileSync('docs/rules.md', 'utf8');
 const blocks = [...doc.matchAll(/```yaml\n([\s\S]*?)```/g)].map((m) => m[1]!);

@@ -6,7 +6,7 @@ import { DEFAULT_FLOORS } from '../../src/detect/thresholds.js';
 import { SEVERITY_LIMITS } from '../../src/alert/severity.js';
 import { ALERT_KINDS } from '../../src/detect/finding.js';
 import { RuleSet } from '../../src/rules/ruleset.js';
-import { rulesFrom } from '../../src/rules/test-helpers.js';
+import { rulesFrom } from '../../src/rules/testing.js';
 import { parseSensorOptions } from '../../src/cli/options.js';
 import { DEFAULT_INTERNAL } from '../../src/util/addr.js';
 
