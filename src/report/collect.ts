@@ -1,4 +1,5 @@
 import type { Alert } from '../alert/alert.js';
+import { alertToJson } from '../alert/serialize.js';
 import type { IngestSummary } from '../ingest/types.js';
 import { Sensor, type SensorOptions } from '../sensor/sensor.js';
 import { latestEpisodes } from './alerts-file.js';
@@ -18,7 +19,8 @@ export interface CollectOptions {
 /** First pass when no alerts file is given: replays the inputs and returns the episodes raised. */
 export async function replayEpisodes(sensor: Omit<SensorOptions, 'mode'>, feed: Feed): Promise<EpisodeSpan[]> {
   const alerts: Alert[] = [];
-  const s = new Sensor({ ...sensor, mode: 'replay' }, (a) => alerts.push(a));
+  // through the feed's serialisation, so numbers read as they would in an alerts file
+  const s = new Sensor({ ...sensor, mode: 'replay' }, (a) => alerts.push(JSON.parse(alertToJson(a)) as Alert));
   await feed(s);
   s.finish();
   return latestEpisodes(alerts);
@@ -33,9 +35,10 @@ export async function collectReportData(episodes: readonly EpisodeSpan[], opts: 
   const recorder = new SeriesRecorder(episodes, windowMs);
   const raised = new Set<string>();
   const sensor = new Sensor({ ...opts.sensor, mode: 'replay' }, (a) => raised.add(a.id));
-  const active = new Set<number>();
+  const active = new Set<number>(), inside = new Set<number>();
   sensor.engine.observer = (ctx, findings) => {
     active.add(ctx.hostId);
+    if (ctx.inside) inside.add(ctx.hostId);
     recorder.observer(ctx, findings);
   };
   const summaries = await feed(sensor);
@@ -65,7 +68,8 @@ export async function collectReportData(episodes: readonly EpisodeSpan[], opts: 
     title: opts.title, generatedMs: opts.generatedMs, windowMs, spanStartMs, spanEndMs,
     inputs: summaries.map(toInput),
     addresses: sensor.aggregator.addresses.size,
-    modelledHosts: active.size,
+    activeHosts: active.size,
+    insideHosts: inside.size,
     flows: summaries.reduce((n, s) => n + s.flows, 0),
     alerts: episodes.map((e) => e.alert),
     series: recorder.series(spanStartMs, spanEndMs),

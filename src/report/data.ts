@@ -16,8 +16,9 @@ export interface ReportData {
   inputs: ReportInput[];
   /** Distinct addresses seen (inside and outside). */
   addresses: number;
-  /** Hosts whose behaviour was modelled (the inside hosts and the outside hosts that initiated). */
-  modelledHosts: number;
+  /** Hosts active in at least one window, and how many of them are inside (--internal). */
+  activeHosts: number;
+  insideHosts: number;
   flows: number;
   /** One alert per episode: its latest state. */
   alerts: Alert[];

@@ -30,7 +30,7 @@ export function renderReport(d: ReportData): string {
     summary(d, episodes),
     ...d.notes.map((n) => `<p class="note">${esc(n)}</p>`),
     hosts.length > 0
-      ? `<section id="timeline"><h2>Timeline</h2>${timelineChart(hosts, d.spanStartMs, d.spanEndMs)}</section>`
+      ? `<section id="timeline"><h2>Timeline</h2>${timelineChart(hosts, Math.floor(d.spanStartMs / d.windowMs) * d.windowMs, d.spanEndMs)}</section>`
         + `<nav><h2>Alerted hosts</h2><ul>${hosts.map((h) => `<li><a href="#${h.anchor}">${esc(h.host)}</a> (${h.episodes.length})</li>`).join('')}</ul></nav>`
       : '<p>No alerts were raised.</p>',
     ...hosts.map(hostSection),
@@ -52,7 +52,7 @@ function summary(d: ReportData, episodes: readonly EpisodeSpan[]): string {
   const facts: [string, string][] = [
     ['Time span', `${esc(fmtUtc(d.spanStartMs))} to ${esc(fmtUtc(d.spanEndMs))} (${fmtDuration(d.spanEndMs - d.spanStartMs)}), windows of ${fmtDuration(d.windowMs)}`],
     ['Inputs', `<ul style="margin:0;padding-left:18px">${inputs}</ul>`],
-    ['Hosts', `${fmtCount(d.modelledHosts)} active hosts, ${fmtCount(d.addresses)} addresses seen`],
+    ['Hosts', `${fmtCount(d.insideHosts)} inside and ${fmtCount(d.activeHosts - d.insideHosts)} outside hosts active; ${fmtCount(d.addresses)} addresses seen`],
     ['Flows', fmtCount(d.flows)],
     ['Alerts', `${episodes.length} episodes on ${new Set(episodes.map((e) => e.alert.host)).size} hosts`],
   ];

@@ -23,7 +23,7 @@ function data(alerts: Alert[]): ReportData {
   return {
     title: 'Test <report>', generatedMs: T0 + 3_600_000, windowMs: 60_000, spanStartMs: T0, spanEndMs: T0 + 3_600_000,
     inputs: [{ file: 'c.pcap', format: 'pcap', units: 5000, unitName: 'packets', bytes: 1e6, flows: 900 }],
-    addresses: 40, modelledHosts: 12, flows: 900, alerts,
+    addresses: 40, activeHosts: 12, insideHosts: 9, flows: 900, alerts,
     series: [{
       host: '10.60.2.14', feature: 'max_ports_per_peer', startMs: T0, stepMs: 60_000, observed,
       expected: new Float64Array(n).fill(2), low: new Float64Array(n).fill(0), high: new Float64Array(n).fill(4), bandFrom: 'rule', pointWindows: 1,

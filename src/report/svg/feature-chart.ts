@@ -4,7 +4,7 @@ import { GRID, INK, MUTED, SERIES } from './palette.js';
 import { linearScale, logScale, timeTicks, wantsLog, type Scale } from './scale.js';
 import { esc, px, runs } from './svg.js';
 
-const W = 760, H = 230;
+const W = 960, H = 230;
 const M = { left: 66, right: 22, top: 30, bottom: 36 };
 
 /**
