@@ -1,17 +1,17 @@
 import type { FlowRecord } from '../flow/record.js';
-import type { TopK } from '../sketch/topk.js';
+import type { TopEntry } from '../sketch/topk.js';
 import { rfc3339 } from '../util/time.js';
 import type { Evidence, PeerCount, PortCount, SampleFlow } from './finding.js';
 import type { HostContext } from './context.js';
 
 const TOP = 10;
 
-export function topPeers(t: TopK | null, name: (id: number) => string): PeerCount[] {
-  return t ? t.top(TOP).map((e) => ({ peer: name(e.key), count: e.count })) : [];
+export function topPeers(list: readonly TopEntry[], name: (id: number) => string): PeerCount[] {
+  return list.map((e) => ({ peer: name(e.key), count: e.count }));
 }
 
-export function topPorts(t: TopK | null): PortCount[] {
-  return t ? t.top(TOP).map((e) => ({ port: e.key, count: e.count })) : [];
+export function topPorts(list: readonly TopEntry[]): PortCount[] {
+  return list.map((e) => ({ port: e.key, count: e.count }));
 }
 
 export function sampleFlow(r: FlowRecord): SampleFlow {
@@ -25,8 +25,8 @@ export function sampleFlow(r: FlowRecord): SampleFlow {
 export function baseEvidence(ctx: HostContext, extras: Record<string, unknown> = {}): Evidence {
   const a = ctx.acc;
   return {
-    top_peers: topPeers(a.topPeers, ctx.name),
-    top_ports: topPorts(a.topPorts),
+    top_peers: topPeers(a.topPeers(TOP), ctx.name),
+    top_ports: topPorts(a.topPorts(TOP)),
     sample_flows: a.samples.map(sampleFlow),
     flows: a.flowsOut + a.flowsIn,
     packets: a.pktsOut + a.pktsIn,

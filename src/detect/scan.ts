@@ -1,7 +1,7 @@
 import { F } from '../window/features.js';
 import type { Finding } from './finding.js';
 import type { HostContext } from './context.js';
-import { baseEvidence, topPorts, topPeers } from './evidence.js';
+import { baseEvidence, topPorts } from './evidence.js';
 import { priorBand, scoreCount } from './score.js';
 import { CONTINUE_Z, TRW_LOG_CONTINUE } from './thresholds.js';
 
@@ -45,20 +45,19 @@ export function shapeFinding(
 
 /** vertical-scan: one source, one target, many ports, mostly failed. */
 export function verticalScan(ctx: HostContext): Finding | null {
-  const peer = ctx.acc.portsPerPeer?.top(1)[0];
+  const peer = ctx.acc.topPortsPerPeer();
   const f = shapeFinding(ctx, 'vertical-scan', F.max_ports_per_peer, ctx.floors.scanPorts, {
     peer: peer ? ctx.name(peer.key) : '',
   });
-  if (f) f.evidence.top_ports = topPorts(ctx.acc.failPorts);
+  if (f) f.evidence.top_ports = topPorts(ctx.acc.failPorts?.top(10) ?? []);
   return f;
 }
 
 /** horizontal-scan: one source, many targets, few ports, mostly failed. */
 export function horizontalScan(ctx: HostContext): Finding | null {
-  const port = ctx.acc.peersPerPort?.top(1)[0];
+  const port = ctx.acc.topPeersPerPort();
   const f = shapeFinding(ctx, 'horizontal-scan', F.max_peers_per_port, ctx.floors.scanPeers, {
     port: port ? port.key : 0,
   });
-  if (f) f.evidence.top_peers = topPeers(ctx.acc.topPeers, ctx.name);
-  return f;
+    return f;
 }

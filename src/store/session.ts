@@ -25,7 +25,6 @@ export class SensorState {
   private filter: LabelFilter;
   private sensor: Sensor | null = null;
   private pending: Filtered[] = [];
-  private readonly peers = new Set<number>();
 
   private constructor(store: StateStore, private readonly opts: SensorStateOptions) {
     this.store = store;
@@ -82,11 +81,7 @@ export class SensorState {
     for (const acc of w.hosts) {
       const host = name(acc.hostId);
       this.store.touchHost(host, agg.isInsideId(acc.hostId), w.start);
-      if (!acc.pairSet) continue;
-      // pairSet keys are peer * 65536 + port (window/host-acc.ts); bounded per host-window
-      this.peers.clear();
-      for (const k of acc.pairSet) this.peers.add(Math.floor(k / 65536));
-      for (const p of this.peers) this.store.touchPeer(host, name(p), w.start);
+      for (const p of acc.peersContacted()) this.store.touchPeer(host, name(p), w.start);
     }
   }
 

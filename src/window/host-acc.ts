@@ -1,6 +1,6 @@
 import { HyperLogLog } from '../sketch/hll.js';
 import { EntropyCounter } from '../sketch/entropy.js';
-import { TopK } from '../sketch/topk.js';
+import { TopK, type TopEntry } from '../sketch/topk.js';
 import type { FlowRecord } from '../flow/record.js';
 import { F, FEATURE_COUNT } from './features.js';
 
@@ -10,9 +10,28 @@ const SAMPLE_FLOWS = 5;
 /** HyperLogLog precision of per-window distinct counts: 1.6 % standard error, exact up to 256. */
 const HLL_P = 12;
 
+/** The sets and sketches of one role, created only once a host shows a second distinct key. */
+class InitiatorSets {
+  peers = new HyperLogLog(HLL_P);
+  dports = new HyperLogLog(HLL_P);
+  pairSet = new Set<number>();
+  pairCount = new HyperLogLog(HLL_P);
+  portsPerPeer = new TopK(64);
+  peersPerPort = new TopK(64);
+  entDstPorts = new EntropyCounter();
+  entDstAddrs = new EntropyCounter();
+  entSrcPorts = new EntropyCounter();
+}
+
+class ResponderSets {
+  sources = new HyperLogLog(HLL_P);
+  entSrcAddrs = new EntropyCounter();
+}
+
 /**
- * One host's accumulators for one window. Created per host per window (never per flow); the
- * structures a host with little activity never needs stay null (sparse state).
+ * One host's accumulators for one window. Created per host per window (never per flow). Sparse state:
+ * while a host's flows in a role all share one key (the common case for most hosts in a window) the
+ * key lives inline; sets, sketches and top-k lists appear only with a second distinct key.
  */
 export class HostAcc {
   flowsOut = 0; pktsOut = 0; bytesOut = 0;
@@ -27,19 +46,15 @@ export class HostAcc {
   /** Largest new-and-rare destination by bytes this window (for unusual-destination evidence). */
   newPeerTop = -1; newPeerTopBytes = 0;
 
-  peers: HyperLogLog | null = null;
-  dports: HyperLogLog | null = null;
-  sources: HyperLogLog | null = null;
-  pairSet: Set<number> | null = null;
-  pairCount: HyperLogLog | null = null;
-  portsPerPeer: TopK | null = null;
-  peersPerPort: TopK | null = null;
-  entDstPorts: EntropyCounter | null = null;
-  entDstAddrs: EntropyCounter | null = null;
-  entSrcPorts: EntropyCounter | null = null;
-  entSrcAddrs: EntropyCounter | null = null;
-  topPeers: TopK | null = null;
-  topPorts: TopK | null = null;
+  // inline first key of each role (-1: none yet) and how many flows carried it
+  private oPeer = -1; private oDport = -1; private oSport = -1; private oCount = 0;
+  private iPeer = -1; private iPort = -1; private iCount = 0;
+  private out: InitiatorSets | null = null;
+  private inn: ResponderSets | null = null;
+  /** Evidence lists over both roles, created with the first set of either role. */
+  private evPeers: TopK | null = null;
+  private evPorts: TopK | null = null;
+  /** Destination ports of failed attempts (scan evidence). */
   failPorts: TopK | null = null;
   samples: FlowRecord[] = [];
 
@@ -51,21 +66,13 @@ export class HostAcc {
     this.pktsOut += r.pkts; this.bytesOut += r.bytes;
     this.pktsIn += r.rpkts; this.bytesIn += r.rbytes;
     if (r.proto !== 6) { this.nontcpOut += r.bytes; this.nontcpIn += r.rbytes; }
-    (this.peers ??= new HyperLogLog(HLL_P)).add(peerId);
-    (this.dports ??= new HyperLogLog(HLL_P)).add(r.dport);
-    (this.entDstPorts ??= new EntropyCounter()).add(r.dport);
-    (this.entDstAddrs ??= new EntropyCounter()).add(peerId);
-    (this.entSrcPorts ??= new EntropyCounter()).add(r.sport);
-    (this.topPeers ??= new TopK(32)).add(peerId);
-    (this.topPorts ??= new TopK(32)).add(r.dport);
-    const pairKey = peerId * 65536 + r.dport;
-    const set = (this.pairSet ??= new Set());
-    const fresh = !set.has(pairKey);
-    if (fresh) {
-      if (set.size < PAIR_SET_CAP) set.add(pairKey);
-      (this.pairCount ??= new HyperLogLog(HLL_P)).addPair(peerId, r.dport);
-      (this.portsPerPeer ??= new TopK(64)).add(peerId);
-      (this.peersPerPort ??= new TopK(64)).add(r.dport);
+    let fresh: boolean;
+    if (this.out === null && (this.oCount === 0 || (peerId === this.oPeer && r.dport === this.oDport && r.sport === this.oSport))) {
+      fresh = this.oCount === 0;
+      if (fresh) { this.oPeer = peerId; this.oDport = r.dport; this.oSport = r.sport; }
+      this.oCount++;
+    } else {
+      fresh = this.addOut(this.initiatorSets(), peerId, r.dport, r.sport, 1);
     }
     if (isAttempt(r)) {
       if (fresh) {
@@ -88,14 +95,73 @@ export class HostAcc {
     this.pktsIn += r.pkts; this.bytesIn += r.bytes;
     this.pktsOut += r.rpkts; this.bytesOut += r.rbytes;
     if (r.proto !== 6) { this.nontcpIn += r.bytes; this.nontcpOut += r.rbytes; }
-    (this.sources ??= new HyperLogLog(HLL_P)).add(peerId);
-    (this.entSrcAddrs ??= new EntropyCounter()).add(peerId);
-    (this.topPeers ??= new TopK(32)).add(peerId);
-    (this.topPorts ??= new TopK(32)).add(r.dport);
+    if (this.inn === null && (this.iCount === 0 || (peerId === this.iPeer && r.dport === this.iPort))) {
+      if (this.iCount === 0) { this.iPeer = peerId; this.iPort = r.dport; }
+      this.iCount++;
+    } else {
+      this.addIn(this.responderSets(), peerId, r.dport, 1);
+    }
     if (r.outcome === 'rejected' || r.outcome === 'unanswered') this.failedIn++;
     if (r.proto === 6 && (r.flags & 0x12) === 0x02 && (r.rflags & 0x10) === 0) this.synOnlyIn++;
     if (isIcmpUnreachable(r)) this.icmpUnreachIn += r.pkts;
     this.sample(r);
+  }
+
+  /** Returns true when (peer, dport) was new in this window. */
+  private addOut(s: InitiatorSets, peer: number, dport: number, sport: number, n: number, withEvidence = true): boolean {
+    s.peers.add(peer);
+    s.dports.add(dport);
+    s.entDstPorts.add(dport, n);
+    s.entDstAddrs.add(peer, n);
+    s.entSrcPorts.add(sport, n);
+    if (withEvidence) this.evidence(peer, dport, n);
+    const pairKey = peer * 65536 + dport;
+    if (s.pairSet.has(pairKey)) return false;
+    if (s.pairSet.size < PAIR_SET_CAP) s.pairSet.add(pairKey);
+    s.pairCount.addPair(peer, dport);
+    s.portsPerPeer.add(peer);
+    s.peersPerPort.add(dport);
+    return true;
+  }
+
+  private addIn(s: ResponderSets, peer: number, port: number, n: number): void {
+    s.sources.add(peer);
+    s.entSrcAddrs.add(peer, n);
+    this.evidence(peer, port, n);
+  }
+
+  private evidence(peer: number, port: number, n: number): void {
+    if (this.evPeers === null) {
+      this.evPeers = new TopK(32);
+      this.evPorts = new TopK(32);
+      // the other role's inline key joins the lists once they exist
+      if (this.out === null && this.oCount > 0) { this.evPeers.add(this.oPeer, this.oCount); this.evPorts.add(this.oDport, this.oCount); }
+      if (this.inn === null && this.iCount > 0) { this.evPeers.add(this.iPeer, this.iCount); this.evPorts.add(this.iPort, this.iCount); }
+    }
+    this.evPeers.add(peer, n);
+    this.evPorts!.add(port, n);
+  }
+
+  private initiatorSets(): InitiatorSets {
+    if (this.out) return this.out;
+    const s = new InitiatorSets();
+    if (this.evPeers === null) this.evidence(this.oPeer, this.oDport, 0);
+    this.out = s;
+    // replay the inline key; the evidence lists took it when they were created
+    if (this.oCount > 0) this.addOut(s, this.oPeer, this.oDport, this.oSport, this.oCount, false);
+    return s;
+  }
+
+  private responderSets(): ResponderSets {
+    if (this.inn) return this.inn;
+    const s = new ResponderSets();
+    if (this.evPeers === null) this.evidence(this.iPeer, this.iPort, 0);
+    this.inn = s;
+    if (this.iCount > 0) {
+      s.sources.add(this.iPeer);
+      s.entSrcAddrs.add(this.iPeer, this.iCount);
+    }
+    return s;
   }
 
   private sample(r: FlowRecord): void {
@@ -108,22 +174,64 @@ export class HostAcc {
     if (size(r) > size(this.samples[min]!)) this.samples[min] = r;
   }
 
+  /** Distinct peers this host initiated to in this window (exact up to the pair-set bound). */
+  peersContacted(): Set<number> {
+    const peers = new Set<number>();
+    if (this.out) for (const k of this.out.pairSet) peers.add(Math.floor(k / 65536));
+    else if (this.oCount > 0) peers.add(this.oPeer);
+    return peers;
+  }
+
+  /** Top peers over both roles, by flows. */
+  topPeers(k: number): TopEntry[] {
+    if (this.evPeers) return this.evPeers.top(k);
+    return inlineTop(this.oPeer, this.oCount, this.iPeer, this.iCount);
+  }
+
+  /** Top ports (destination ports as initiator, local ports as responder), by flows. */
+  topPorts(k: number): TopEntry[] {
+    if (this.evPorts) return this.evPorts.top(k);
+    return inlineTop(this.oDport, this.oCount, this.iPort, this.iCount);
+  }
+
+  /** The peer this host sent to on the most distinct ports, with that count. */
+  topPortsPerPeer(): TopEntry | undefined {
+    if (this.out) return this.out.portsPerPeer.top(1)[0];
+    return this.oCount > 0 ? { key: this.oPeer, count: 1, error: 0 } : undefined;
+  }
+
+  /** The destination port this host sent to the most distinct peers on, with that count. */
+  topPeersPerPort(): TopEntry | undefined {
+    if (this.out) return this.out.peersPerPort.top(1)[0];
+    return this.oCount > 0 ? { key: this.oDport, count: 1, error: 0 } : undefined;
+  }
+
   /** Fills `out` (length FEATURE_COUNT) with this window's feature values. */
   values(out: Float64Array): Float64Array {
     out.fill(0, 0, FEATURE_COUNT);
     out[F.flows_out] = this.flowsOut; out[F.pkts_out] = this.pktsOut; out[F.bytes_out] = this.bytesOut;
     out[F.flows_in] = this.flowsIn; out[F.pkts_in] = this.pktsIn; out[F.bytes_in] = this.bytesIn;
     out[F.nontcp_bytes_out] = this.nontcpOut; out[F.nontcp_bytes_in] = this.nontcpIn;
-    out[F.distinct_peers] = this.peers?.count() ?? 0;
-    out[F.distinct_dst_ports] = this.dports?.count() ?? 0;
-    out[F.distinct_peer_ports] = this.pairCount?.count() ?? 0;
-    out[F.max_ports_per_peer] = this.portsPerPeer?.top(1)[0]?.count ?? 0;
-    out[F.max_peers_per_port] = this.peersPerPort?.top(1)[0]?.count ?? 0;
-    out[F.distinct_sources] = this.sources?.count() ?? 0;
-    out[F.entropy_dst_ports] = this.entDstPorts?.normalised() ?? 0;
-    out[F.entropy_dst_addrs] = this.entDstAddrs?.normalised() ?? 0;
-    out[F.entropy_src_ports] = this.entSrcPorts?.normalised() ?? 0;
-    out[F.entropy_src_addrs] = this.entSrcAddrs?.normalised() ?? 0;
+    const o = this.out;
+    if (o) {
+      out[F.distinct_peers] = o.peers.count();
+      out[F.distinct_dst_ports] = o.dports.count();
+      out[F.distinct_peer_ports] = o.pairCount.count();
+      out[F.max_ports_per_peer] = o.portsPerPeer.top(1)[0]?.count ?? 0;
+      out[F.max_peers_per_port] = o.peersPerPort.top(1)[0]?.count ?? 0;
+      out[F.entropy_dst_ports] = o.entDstPorts.normalised();
+      out[F.entropy_dst_addrs] = o.entDstAddrs.normalised();
+      out[F.entropy_src_ports] = o.entSrcPorts.normalised();
+    } else if (this.oCount > 0) {
+      out[F.distinct_peers] = 1; out[F.distinct_dst_ports] = 1; out[F.distinct_peer_ports] = 1;
+      out[F.max_ports_per_peer] = 1; out[F.max_peers_per_port] = 1;
+    }
+    if (this.inn) {
+      out[F.distinct_sources] = this.inn.sources.count();
+      out[F.entropy_src_addrs] = this.inn.entSrcAddrs.normalised();
+    } else if (this.iCount > 0) {
+      out[F.distinct_sources] = 1;
+    }
     const failed = this.rejected + this.unanswered;
     out[F.attempts_out] = this.attempts;
     out[F.failed_out] = failed;
@@ -136,6 +244,16 @@ export class HostAcc {
     out[F.new_peer_bytes] = this.newPeerBytes;
     return out;
   }
+}
+
+function inlineTop(a: number, an: number, b: number, bn: number): TopEntry[] {
+  const list: TopEntry[] = [];
+  if (an > 0) list.push({ key: a, count: an, error: 0 });
+  if (bn > 0) {
+    if (an > 0 && a === b) list[0]!.count += bn;
+    else list.push({ key: b, count: bn, error: 0 });
+  }
+  return list.sort((x, y) => y.count - x.count);
 }
 
 function size(r: FlowRecord): number {
