@@ -21,6 +21,9 @@ export const f64 = (b: Uint8Array): Float64Array => new Float64Array(copy(b));
 export const u16 = (b: Uint8Array): Uint16Array => new Uint16Array(copy(b));
 export const u8 = (b: Uint8Array): Uint8Array => new Uint8Array(copy(b));
 
+/** The only objects fromJson turns back into numbers (no state object has a `$num` key of its own). */
+const NON_FINITE = new Set(['NaN', 'Infinity', '-Infinity']);
+
 export function toJson(x: unknown): string {
   return JSON.stringify(x, (_k, v: unknown) => (typeof v === 'number' && !Number.isFinite(v) ? { $num: String(v) } : v));
 }
@@ -29,7 +32,7 @@ export function fromJson<T>(s: string | Buffer): T {
   return JSON.parse(String(s), (_k, v: unknown) => {
     if (v !== null && typeof v === 'object' && !Array.isArray(v)) {
       const o = v as Record<string, unknown>;
-      if (typeof o.$num === 'string' && Object.keys(o).length === 1) return Number(o.$num);
+      if (NON_FINITE.has(o.$num as string) && Object.keys(o).length === 1) return Number(o.$num);
     }
     return v;
   }) as T;

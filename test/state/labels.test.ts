@@ -61,6 +61,12 @@ describe('labels', () => {
     expect(hidden.map((x) => [x.id, x.state, x.severity])).toEqual(scans(plain).map((x) => [x.id, x.state, x.severity]));
     for (const x of hidden) expect(x.evidence.suppressed_by).toBe(1);
 
+    // the same run with --show-suppressed: the feed keeps the lines, marked
+    const db2 = join(dir, 'benign-shown.db');
+    expect(cli(['label', firstHalf(db2), 'benign', '--state', db2]).status).toBe(0);
+    const shown = scans(parse(cli(['replay', b, '--state', db2, '--show-suppressed', ...common]).stdout));
+    expect(shown).toEqual(hidden);
+
     expect(cli(['labels', '--state', db]).stdout).toMatch(/label 1: benign episode .*vertical-scan 192\.168\.60\.23 source peer 10\.60\.0\.5.*"authorised audit"/);
   });
 
