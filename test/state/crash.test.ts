@@ -5,7 +5,7 @@ import { join } from 'node:path';
 import Database from 'better-sqlite3';
 import { afterAll, describe, expect, it } from 'vitest';
 import { generateScenario } from '../../src/scenario/index.js';
-import { CLI, cli, LARKSPUR_INSIDE } from './helpers.js';
+import { CLI, cli, LARKSPUR_INSIDE, learnedState } from './helpers.js';
 
 // Crash safety (issue 5 acceptance): `replay --state` is killed with SIGKILL after some alert lines were
 // stored (seen by polling the file read-only), then rerun with the same state. No stored line is lost
@@ -64,6 +64,7 @@ describe('crash safety', () => {
     const reference = join(dir, 'reference.db');
     expect(cli([...args, '--state', reference]).status).toBe(0);
     expect(after.map((r) => r.json).sort()).toEqual(rows(reference).map((r) => r.json).sort());
+    expect(learnedState(db)).toEqual(learnedState(reference)); // hosts, peer counts, models, checkpoint
 
     const d = new Database(db, { readonly: true });
     expect(d.pragma('integrity_check', { simple: true })).toBe('ok');
