@@ -1,35 +1,42 @@
 import { writeFile } from 'node:fs/promises';
 import type { Command } from 'commander';
-import { collectReportData, readAlertsFile, renderReport, replayEpisodes, type EpisodeSpan, type Feed } from '../report/index.js';
+import type { Alert } from '../alert/alert.js';
+import { collectReportData, latestEpisodes, readAlertsFile, renderReport, replayEpisodes, type EpisodeSpan, type Feed } from '../report/index.js';
 import type { Sensor } from '../sensor/sensor.js';
 import { formatProblem } from '../util/problem.js';
 import { addSensorOptions, defaultLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { runInputs } from './run-inputs.js';
+import { openExisting } from './alerts.js';
 import { Progress } from './progress.js';
 import { inputError, usageError } from './exit.js';
 
-interface ReportRaw extends RawSensorOptions { input: string[]; out: string; title?: string }
+interface ReportRaw extends RawSensorOptions { input: string[]; out: string; title?: string; state?: string }
 
 /**
  * `tidewatch report [ALERTS] --input INPUT... --out FILE`: one self-contained HTML page (no scripts, no
  * external resources) with a summary, a timeline and, per alerted host, charts of the features that
  * tripped against their normal band, the explanations and the evidence. The series come from a
- * re-run over the input, so give the options of the run that made ALERTS. Without ALERTS the input
- * is read twice: once for the alerts, once for the series.
+ * re-run over the input, so give the options of the run that made ALERTS. With `--state DB` the alerts
+ * are the ones stored there (not those suppressed by a benign label); the re-run starts from nothing, so
+ * give every input the state learned from, in order. Without either the input is read twice: once for
+ * the alerts, once for the series.
  */
 export function register(program: Command): void {
   const cmd = program
     .command('report')
     .description('write an HTML report (charts, timeline, explanations) of the alerts raised on the input')
     .argument('[alerts]', 'alert feed (JSON lines) of an earlier replay of the same input; default: replay it now')
+    .option('--state <file>', 'take the alerts stored in this state file instead of an alerts file')
     .requiredOption('--input <files...>', 'the captures or flow exports the alerts came from (files)')
     .option('--out <file>', 'where to write the page', 'report.html')
     .option('--title <text>', 'page title');
   addSensorOptions(cmd).action(async (alertsFile: string | undefined, raw: ReportRaw) => {
     const parsed = parseSensorOptions(raw);
-    if (!alertsFile && raw.input.includes('-')) throw usageError('--input -: without an alerts file the input is read twice, so it must be a file');
+    if (!alertsFile && !raw.state && raw.input.includes('-')) throw usageError('--input -: without an alerts file the input is read twice, so it must be a file');
+    if (alertsFile && raw.state) throw usageError('give an alerts file or --state, not both');
     let episodes: EpisodeSpan[] = [];
-    if (alertsFile) {
+    if (raw.state) episodes = storedEpisodes(raw.state);
+    else if (alertsFile) {
       const r = await readAlertsFile(alertsFile).catch((e: NodeJS.ErrnoException) => {
         throw inputError(`${alertsFile}: cannot read (${e.code ?? e.message})`);
       });
@@ -50,7 +57,7 @@ export function register(program: Command): void {
       if (unreadable.length === raw.input.length) throw inputError(`no readable input (${unreadable.join(', ')})`);
       return summaries;
     };
-    if (!alertsFile) episodes = await replayEpisodes(sensorOpts, feed);
+    if (!alertsFile && !raw.state) episodes = await replayEpisodes(sensorOpts, feed);
     const data = await collectReportData(episodes, {
       sensor: sensorOpts, generatedMs: Date.now(),
       title: raw.title ?? `Alerts on ${raw.input.map((f) => f.split('/').pop()).join(', ')}`,
@@ -65,4 +72,14 @@ export function register(program: Command): void {
       for (const n of data.notes) process.stderr.write(`note: ${n}\n`);
     }
   });
+}
+
+/** The alerts stored in a state file (suppressed lines left out), latest line per episode. */
+function storedEpisodes(path: string): EpisodeSpan[] {
+  const store = openExisting(path);
+  try {
+    return latestEpisodes(store.alerts({}).map((r) => JSON.parse(r.json) as Alert));
+  } finally {
+    store.close();
+  }
 }
