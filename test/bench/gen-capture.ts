@@ -83,6 +83,7 @@ export function generateCapture(path: string, o: GenOptions = DEFAULT_GEN): GenR
   for (let k = 0; k < K; k++) start(k);
 
   let usec = 0;
+  let written = 0;
   let ipBytes = 0;
   let ipId = 1;
 
@@ -165,11 +166,12 @@ export function generateCapture(path: string, o: GenOptions = DEFAULT_GEN): GenR
     }
     used = end;
     ipBytes += ipLen;
+    written++;
   };
 
   const hdr = (k: number) => (v6[k] ? 40 : 20);
   const SYN = 0x02, ACK = 0x10, PSH = 0x08, FIN = 0x01, RST = 0x04;
-  for (let n = 0; n < o.packets; n++) {
+  while (written < o.packets) {
     const k = Math.floor(rnd() * K);
     const s = step[k]!++;
     const ih = hdr(k);
@@ -185,10 +187,13 @@ export function generateCapture(path: string, o: GenOptions = DEFAULT_GEN): GenR
           const payload = rnd() < 0.6 ? 1460 : Math.floor(rnd() * 600);
           frame(k, !down, 6, ih + 20 + payload, payload > 0 ? PSH | ACK : ACK, 0, 0);
         } else {
-          const t = tear[k]!++;
-          if (t === 0) frame(k, true, 6, ih + 20, FIN | ACK, 0, 0);
-          else if (t === 1) frame(k, false, 6, ih + 20, FIN | ACK, 0, 0);
-          else { frame(k, true, 6, ih + 20, ACK, 0, 0); done = true; }
+          if (tear[k]++ === 0) frame(k, true, 6, ih + 20, FIN | ACK, 0, 0);
+          else {
+            // the answering FIN and the last ACK follow within a round trip, not after other flows' turns
+            frame(k, false, 6, ih + 20, FIN | ACK, 0, 0);
+            if (written < o.packets) frame(k, true, 6, ih + 20, ACK, 0, 0);
+            done = true;
+          }
         }
         break;
       case Kind.TcpRefused:
