@@ -143,7 +143,9 @@ export class BaselineBank {
    */
   observe(slot: number, x: number, tMs: number, anomalous = false): boolean {
     if (!Number.isFinite(x)) return false;
-    if (slot >= this.capacity) this.grow(Math.max(slot + 1, 2 * this.capacity));
+    // grow by half: with a million hosts the bank is the largest structure, and doubling would
+    // briefly hold three times what it needs
+    if (slot >= this.capacity) this.grow(Math.max(slot + 1, Math.ceil(1.5 * this.capacity)));
     const last = this.last[slot]!;
     if (tMs <= last) return false;
     this.catchUp(slot, tMs);

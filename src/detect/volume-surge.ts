@@ -16,6 +16,9 @@ const OUT = [0, 1, 2, 3] as const;
 const IN = [4, 5, 6, 7] as const;
 /** Octet totals, dominated by TCP bulk transfers; they open only when the surge persists. */
 const BULK = new Set<number>([F.bytes_out, F.bytes_in]);
+const READY_WINDOWS = 12;
+const NONE: Finding[] = [];
+const SCORES = new Float64Array(VOLUME.length);
 /** Windows of routine history before a single window may open on its own (else it must persist). */
 export const PEAK_MATURE = 60;
 /** A surge that persists must still pass the routine peak by this factor. */
@@ -38,9 +41,12 @@ const HIGH_Z = LEARN_CLIP_Z;
  * with the highest score speaks for its direction.
  */
 export function volumeSurge(ctx: HostContext): Finding[] {
+  // hosts seen in a few windows only (most outside addresses) never need the state: it starts when
+  // the baseline can be trusted, and the envelope has PEAK_MATURE - 12 windows to learn before it gates
+  if (ctx.model.activeWindows < READY_WINDOWS) return NONE;
   const st = (ctx.model.surge ??= newState());
   const follows = st.lastStart === ctx.windowStart - (ctx.windowEnd - ctx.windowStart);
-  const scores = new Float64Array(VOLUME.length);
+  const scores = SCORES.fill(0);
   const out: Finding[] = [];
   const src = strongest(ctx, OUT, scores, st, follows);
   if (src) out.push(src);

@@ -83,12 +83,11 @@ function inCidr(b: Uint8Array, c: Cidr): boolean {
 export const DEFAULT_INTERNAL = ['10.0.0.0/8', '172.16.0.0/12', '192.168.0.0/16', 'fc00::/7', '127.0.0.0/8', '::1/128'];
 
 /**
- * A set of CIDRs with a cached membership test by address text. Addresses reach it once per host
- * (windows are per host), so the cache keeps the per-flow cost to one Map lookup.
+ * A set of CIDRs with a membership test by address text. Callers on a hot path ask once per address
+ * and keep the answer (window/aggregator.ts keeps it per interned address id).
  */
 export class CidrSet {
   readonly cidrs: Cidr[];
-  private cache = new Map<string, boolean>();
   constructor(list: readonly string[]) {
     this.cidrs = [];
     for (const s of list) {
@@ -98,14 +97,8 @@ export class CidrSet {
     }
   }
   has(addr: string): boolean {
-    let v = this.cache.get(addr);
-    if (v === undefined) {
-      const b = addrBytes(addr);
-      v = b !== null && this.cidrs.some((c) => inCidr(b, c));
-      if (this.cache.size > 1_000_000) this.cache.clear();
-      this.cache.set(addr, v);
-    }
-    return v;
+    const b = addrBytes(addr);
+    return b !== null && this.cidrs.some((c) => inCidr(b, c));
   }
 }
 
