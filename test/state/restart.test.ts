@@ -41,6 +41,18 @@ describe('restart equivalence', () => {
     expect(learnedState(split)).toEqual(learnedState(whole));
     expect(statSync(whole).mode & 0o777).toBe(0o600);
   });
+
+  it.each(['replay', 'live'] as const)('holds with an hourly alert budget in %s mode (held hours cross the split)', (mode) => {
+    const extra = { maxAlertsPerHour: 1, mode };
+    const whole = join(dir, `budget-${mode}-whole.db`);
+    const split = join(dir, `budget-${mode}-split.db`);
+    runWithState(whole, records, extra);
+    runWithState(split, records.filter((r) => r.start < SPLIT), extra);
+    runWithState(split, records.filter((r) => r.start >= SPLIT), extra);
+    expect(storedLines(whole).length).toBeGreaterThan(0);
+    expect(storedLines(split)).toEqual(storedLines(whole));
+    expect(learnedState(split)).toEqual(learnedState(whole));
+  });
 });
 
 describe('restart equivalence through the CLI', () => {
