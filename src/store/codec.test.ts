@@ -28,6 +28,11 @@ describe('codec', () => {
     expect(modelFromBytes(7, bl, modelToBytes(m).subarray(1))).toBeNull();
   });
 
+  it('knows every HostModel field (a new field must be added to the codec, or it is lost at restart)', () => {
+    const m = new HostModel(0, new Baselines(60_000));
+    expect(Object.keys(m).sort()).toEqual(['activeWindows', 'baselines', 'cusum', 'firstActiveStart', 'hostId', 'lastActiveStart', 'surge', 'trwDecided', 'trwLog']);
+  });
+
   it('a host\'s baseline slots come back with the same bands', () => {
     const a = new Baselines(60_000);
     const values = new Float64Array(27);
