@@ -47,6 +47,7 @@ export function register(program: Command): void {
       const kinds = [...output.counts.entries()].map(([k, n]) => `${k}=${n}`).join(', ');
       process.stderr.write(`windows ${st.windowsClosed}, hosts ${sensor.aggregator.addresses.size}, late records ${st.late}; `
         + `alerts ${output.total}${kinds ? ` (${kinds})` : ''}; suppressed by budget ${sensor.tracker.counters.suppressedByBudget}\n`);
+      if (state) process.stderr.write(`${state.summary()}\n`);
     }
     if (unreadable.length === inputs.length) throw inputError(`no readable input (${unreadable.join(', ')})`);
     if (unreadable.length > 0) process.exitCode = EXIT_INPUT;

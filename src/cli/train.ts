@@ -34,7 +34,7 @@ export function register(program: Command): void {
       if (!parsed.quiet) {
         for (const l of describeInputs(summaries)) process.stderr.write(`${l}\n`);
         const st = sensor.aggregator.stats;
-        process.stderr.write(`${state.restored ? 'continued' : 'new'} state ${raw.state}: windows ${st.windowsClosed}, `
+        process.stderr.write(`state ${raw.state}: ${state.restored ? 'continued' : 'new'}, windows ${st.windowsClosed}, `
           + `hosts ${sensor.aggregator.addresses.size}, models ${sensor.engine.models.size}, peer pairs ${sensor.aggregator.history.size}, late records ${st.late}\n`);
       }
       if (unreadable.length === inputs.length) throw inputError(`no readable input (${unreadable.join(', ')})`);

@@ -25,15 +25,17 @@ export class SensorState {
   private filter: LabelFilter;
   private sensor: Sensor | null = null;
   private pending: Filtered[] = [];
+  /** Lines stored by this run (a rerun's repeats not counted), and how many of them were suppressed. */
+  readonly written = { lines: 0, suppressed: 0 };
 
-  private constructor(store: StateStore, private readonly opts: SensorStateOptions) {
+  private constructor(store: StateStore, private readonly opts: SensorStateOptions, readonly path: string) {
     this.store = store;
     this.filter = new LabelFilter(store.labels());
   }
 
   /** Opens the state file; a file that cannot be used is a usage error (exit 2). */
   static open(path: string, opts: SensorStateOptions = {}): SensorState {
-    return asUsage(() => new SensorState(StateStore.open(path), opts));
+    return asUsage(() => new SensorState(StateStore.open(path), opts, path));
   }
 
   /** The sensor's emit: labels applied, lines kept for the window's transaction, shown ones passed on. */
@@ -74,6 +76,12 @@ export class SensorState {
     this.store.close();
   }
 
+  /** One line for the command's stderr summary. */
+  summary(): string {
+    return `state ${this.path}: ${this.restored ? 'continued' : 'new'}, ${this.written.lines} alert lines stored`
+      + `${this.written.suppressed > 0 ? ` (${this.written.suppressed} suppressed by labels)` : ''}`;
+  }
+
   private writeWindow(w: ClosedWindow): void {
     this.flushAlerts();
     const agg = this.sensor!.aggregator;
@@ -86,7 +94,11 @@ export class SensorState {
   }
 
   private flushAlerts(): void {
-    for (const f of this.pending) this.store.putAlert(f.alert, alertToJson(f.alert), f.suppressedBy);
+    for (const f of this.pending) {
+      if (!this.store.putAlert(f.alert, alertToJson(f.alert), f.suppressedBy)) continue;
+      this.written.lines++;
+      if (f.suppressedBy !== null) this.written.suppressed++;
+    }
     this.pending = [];
   }
 }
