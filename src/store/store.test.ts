@@ -29,6 +29,8 @@ describe('StateStore', () => {
     const s = StateStore.open(path);
     expect(statSync(path).mode & 0o777).toBe(0o600);
     expect(s.db.pragma('journal_mode', { simple: true })).toBe('wal');
+    s.putState('x', 'y');
+    for (const f of [`${path}-wal`, `${path}-shm`]) expect(statSync(f).mode & 0o777).toBe(0o600); // SQLite copies the file's mode
     expect(schemaVersion(s.db)).toBe(SCHEMA_VERSION);
     expect(s.migrated).toEqual(MIGRATIONS.map((m) => m.version));
     s.close();
