@@ -67,6 +67,14 @@ export interface Band {
   seasonal: boolean;
 }
 
+/**
+ * Growth: by half while small, then in steps of 2 M slots (64 MB): with a million hosts the bank is
+ * the largest structure, and geometric growth would leave up to half of it unused.
+ */
+function nextCapacity(c: number): number {
+  return c < 4_000_000 ? Math.ceil(1.5 * c) : c + 2_000_000;
+}
+
 const SLOT_HEADER = 32;
 const SLOT_VERSION = 1;
 const BYTES_PER_SLOT = 4 + 4 + 4 + 4 + 4 + 8 + 4;
@@ -143,9 +151,7 @@ export class BaselineBank {
    */
   observe(slot: number, x: number, tMs: number, anomalous = false): boolean {
     if (!Number.isFinite(x)) return false;
-    // grow by half: with a million hosts the bank is the largest structure, and doubling would
-    // briefly hold three times what it needs
-    if (slot >= this.capacity) this.grow(Math.max(slot + 1, Math.ceil(1.5 * this.capacity)));
+    if (slot >= this.capacity) this.grow(Math.max(slot + 1, nextCapacity(this.capacity)));
     const last = this.last[slot]!;
     if (tMs <= last) return false;
     this.catchUp(slot, tMs);
@@ -241,7 +247,7 @@ export class BaselineBank {
       profile = SeasonalProfile.fromBytes(b.subarray(SLOT_HEADER), this.seasonalConfig);
       if (profile === null) return false;
     } else if (b.length !== SLOT_HEADER) return false;
-    if (slot >= this.capacity) this.grow(Math.max(slot + 1, 2 * this.capacity));
+    if (slot >= this.capacity) this.grow(Math.max(slot + 1, nextCapacity(this.capacity)));
     const dv = new DataView(b.buffer, b.byteOffset, b.byteLength);
     this.level[slot] = dv.getFloat32(4, true);
     this.dev[slot] = dv.getFloat32(8, true);

@@ -57,6 +57,8 @@ export const benches: Bench[] = [
   { name: 'capture -> flows (decode, flow table, JSON lines)', input: 'capture', run: (f) => child('flows', f) },
   ...(existsSync(TIME) ? [{ name: 'tidewatch flows CLI > /dev/null (whole process)', input: 'capture' as const, run: (f: string) => cli(f, packets) }] : []),
   { name: 'pcap-parser packet loop (npm, count only)', input: 'capture', run: (f) => child('pcap-parser', f) },
+  { name: 'replay: capture -> alerts (windows, detectors, alert lines)', input: 'capture', run: (f) => child('replay', f) },
+  { name: 'replay host scaling: 1 M distinct hosts x 3 windows (records)', input: 'own', run: () => child('hosts', '1000000') },
 ];
 const BASELINE = 'pcap-parser packet loop (npm, count only)';
 
@@ -91,7 +93,8 @@ try {
   const widths = head.map((h, i) => Math.max(h.length, ...table.map((r) => r[i]!.length)));
   const line = (r: string[]) => r.map((c, i) => (i === 0 ? c.padEnd(widths[i]!) : c.padStart(widths[i]!))).join('  ');
   process.stdout.write(`${line(head)}\n${widths.map((w) => '-'.repeat(w)).join('  ')}\n${table.map(line).join('\n')}\n`);
-  process.stdout.write('\ntargets: capture path >= 3.5 M packets/s, >= 5x pcap-parser, peak RSS <= 300 MB\n');
+  process.stdout.write('\ntargets: capture path >= 3.5 M packets/s, >= 5x pcap-parser, peak RSS <= 300 MB;\n'
+    + '         replay >= 2 M packets/s, >= 3x pcap-parser, peak RSS <= 600 MB; 1 M hosts peak RSS <= 1.5 GB\n');
   process.stdout.write('seconds = wall time (in the child, startup excluded, except for the whole-process CLI row); CPU s = user + system time of the child;\n'
     + `the machine is shared, so compare rows of one run rather than runs${repeat > 1 ? ` (fastest of ${repeat} runs each)` : ''}.\n`);
 } finally {
