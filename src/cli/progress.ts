@@ -69,7 +69,7 @@ export class Progress {
   private tick(): void {
     const src = this.src;
     if (!src) return;
-    const text = this.tty ? barLine(src, this.now() - this.startedMs, this.stream.columns ?? 80)
+    const text = this.tty ? barLine(src, this.now() - this.startedMs, this.stream.columns || 80)
       : `tidewatch: ${plainLine(src, this.now() - this.startedMs)}\n`;
     this.stream.write(this.tty ? `\r\x1b[K${text}` : text);
     this.drawn = this.tty;
