@@ -1,0 +1,60 @@
+import { describe, expect, it } from 'vitest';
+import type { FlowRecord } from '../flow/record.js';
+import { CidrSet } from '../util/addr.js';
+import { WindowAggregator, type ClosedWindow } from './aggregator.js';
+import { F, FEATURE_COUNT } from './features.js';
+
+const T0 = Date.UTC(2026, 2, 10, 9, 0, 0);
+const r = (src: string, dst: string, t: number, bytes = 100): FlowRecord => ({
+  start: t, end: t + 10, proto: 17, src, dst, sport: 5353, dport: 53, pkts: 1, bytes, rpkts: 1, rbytes: 80,
+  flags: 0, rflags: 0, outcome: 'established', exporter: 't',
+});
+
+function make() {
+  const closed: ClosedWindow[] = [];
+  const agg = new WindowAggregator({ windowMs: 60_000, latenessMs: 5_000, internal: new CidrSet(['10.0.0.0/8']) }, (w) => closed.push(w));
+  return { agg, closed };
+}
+
+describe('WindowAggregator', () => {
+  it('closes a window once the watermark (latest time minus lateness) passes its end; later records for it are late (common practice, no source)', () => {
+    const { agg, closed } = make();
+    agg.add(r('10.60.1.1', '10.60.0.2', T0 + 1_000));
+    agg.add(r('10.60.1.1', '10.60.0.2', T0 + 64_000)); // watermark 59 s: window 0 still open
+    expect(closed.length).toBe(0);
+    agg.add(r('10.60.1.2', '10.60.0.2', T0 + 30_000)); // within lateness: counted in window 0
+    agg.add(r('10.60.1.1', '10.60.0.2', T0 + 66_000)); // watermark 61 s: window 0 closes
+    expect(closed.length).toBe(1);
+    agg.add(r('10.60.1.3', '10.60.0.2', T0 + 10_000)); // late
+    expect(agg.stats.late).toBe(1);
+    const w0 = closed[0]!;
+    expect(w0.start).toBe(T0);
+    const server = w0.hosts.find((h) => agg.addresses.name(h.hostId) === '10.60.0.2')!;
+    const v = server.values(new Float64Array(FEATURE_COUNT));
+    expect(v[F.flows_in]).toBe(2);
+    expect(v[F.distinct_sources]).toBe(2);
+  });
+
+  it('tracks both roles and emits empty windows across a quiet gap', () => {
+    const { agg, closed } = make();
+    agg.add(r('10.60.1.1', '198.51.100.7', T0));
+    agg.add(r('10.60.1.1', '198.51.100.7', T0 + 5 * 60_000));
+    agg.finish();
+    expect(closed.map((w) => (w.start - T0) / 60_000)).toEqual([0, 1, 2, 3, 4, 5]);
+    expect(closed[0]!.hosts.length).toBe(2);
+    expect(closed[2]!.hosts.length).toBe(0);
+  });
+
+  it('counts a peer as new only once in the host history, and rare until other inside hosts use it', () => {
+    const { agg, closed } = make();
+    agg.add(r('10.60.1.1', '203.0.113.9', T0, 5_000_000));
+    agg.add(r('10.60.1.1', '203.0.113.9', T0 + 1_000, 5_000_000));
+    agg.finish();
+    const h = closed[0]!.hosts.find((x) => agg.addresses.name(x.hostId) === '10.60.1.1')!;
+    const v = h.values(new Float64Array(FEATURE_COUNT));
+    expect(v[F.new_peers]).toBe(1);
+    expect(v[F.new_peer_bytes]).toBe(10_000_000);
+    for (let i = 2; i < 6; i++) agg.add(r(`10.60.1.${i}`, '203.0.113.9', T0 + 120_000 + i));
+    expect(agg.isRare(agg.addresses.peek('203.0.113.9'))).toBe(false);
+  });
+});
