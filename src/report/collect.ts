@@ -61,6 +61,10 @@ export async function collectReportData(episodes: readonly EpisodeSpan[], opts: 
     notes.push(`${missing} of ${episodes.length} alerts were not raised again when the input was re-read for this report: `
       + 'they may come from other input or other options (--window, --alpha, --internal, --lateness), and their charts may show no anomaly.');
   }
+  if (recorder.omittedPairs > 0) {
+    notes.push(`${recorder.omittedPairs} alerted (host, feature) pairs with lower scores have no chart, to keep the page small; `
+      + 'their alerts are listed with explanations and evidence.');
+  }
   if (recorder.unknownFeatures.size > 0) {
     notes.push(`No chart for features that are not window features: ${[...recorder.unknownFeatures].join(', ')}.`);
   }

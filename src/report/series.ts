@@ -9,6 +9,8 @@ import { downsample } from './downsample.js';
 export const CONTEXT_WINDOWS = 60;
 /** Plotted points per chart at most; longer stretches are downsampled. */
 export const MAX_POINTS = 600;
+/** Charted (host, feature) pairs at most, the highest-scoring first, so the page stays a few MB. */
+export const MAX_CHARTED_PAIRS = 100;
 
 /** One chart being recorded: a (host, feature) over one stretch of windows. */
 interface Track {
@@ -36,6 +38,8 @@ export class SeriesRecorder {
   private readonly byHost = new Map<string, Track[]>();
   /** Features named by alerts that are not window features (no chart). */
   readonly unknownFeatures = new Set<string>();
+  /** Alerted (host, feature) pairs left without a chart past MAX_CHARTED_PAIRS. */
+  omittedPairs = 0;
 
   constructor(episodes: readonly EpisodeSpan[], private readonly windowMs: number) {
     const groups = new Map<string, EpisodeSpan[]>();
@@ -47,7 +51,10 @@ export class SeriesRecorder {
       if (g) g.push(e); else groups.set(key, [e]);
     }
     const pad = CONTEXT_WINDOWS * windowMs;
-    for (const g of groups.values()) {
+    const peak = (g: EpisodeSpan[]) => Math.max(...g.map((e) => e.alert.score));
+    const ranked = [...groups.values()].sort((a, b) => peak(b) - peak(a));
+    this.omittedPairs = Math.max(0, ranked.length - MAX_CHARTED_PAIRS);
+    for (const g of ranked.slice(0, MAX_CHARTED_PAIRS)) {
       g.sort((a, b) => a.startMs - b.startMs);
       const { host, feature } = g[0]!.alert;
       let cur: { start: number; end: number; last: Alert } | null = null;

@@ -3,7 +3,7 @@ import type { Alert } from '../../src/alert/alert.js';
 import type { HostContext } from '../../src/detect/context.js';
 import type { Finding } from '../../src/detect/finding.js';
 import { latestEpisodes } from '../../src/report/alerts-file.js';
-import { CONTEXT_WINDOWS, SeriesRecorder } from '../../src/report/series.js';
+import { CONTEXT_WINDOWS, MAX_CHARTED_PAIRS, SeriesRecorder } from '../../src/report/series.js';
 import { F, FEATURE_COUNT } from '../../src/window/features.js';
 
 const W = 60_000;
@@ -69,5 +69,18 @@ describe('SeriesRecorder', () => {
     const r = new SeriesRecorder(latestEpisodes([alert('10.60.1.5', 'no_such_feature', 1, 2, 'a')]), W);
     expect([...r.unknownFeatures]).toEqual(['no_such_feature']);
     expect(r.series(T0, T0 + W)).toEqual([]);
+  });
+});
+
+describe('SeriesRecorder bounds', () => {
+  it(`charts at most ${MAX_CHARTED_PAIRS} (host, feature) pairs, the highest scores first`, () => {
+    const alerts = Array.from({ length: MAX_CHARTED_PAIRS + 5 }, (_, i) => ({ ...alert(`10.60.${i >> 8}.${i & 255}`, 'bytes_out', 1, 2, `id${i}`), score: i }));
+    const r = new SeriesRecorder(latestEpisodes(alerts), W);
+    expect(r.omittedPairs).toBe(5);
+    for (let i = 0; i < alerts.length; i++) r.observer(ctx(alerts[i]!.host, 1, 1), []);
+    const hosts = new Set(r.series(T0, T0 + 10 * W).map((s) => s.host));
+    expect(hosts.size).toBe(MAX_CHARTED_PAIRS);
+    expect(hosts.has(alerts[0]!.host)).toBe(false); // the lowest scores go first
+    expect(hosts.has(alerts[MAX_CHARTED_PAIRS + 4]!.host)).toBe(true);
   });
 });
