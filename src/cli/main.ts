@@ -10,6 +10,7 @@ import { register as registerRules } from './rules.js';
 import { register as registerTrain } from './train.js';
 import { register as registerAlerts } from './alerts.js';
 import { register as registerLabel } from './label.js';
+import { register as registerWatch } from './watch.js';
 
 const program = new Command();
 program
@@ -29,6 +30,7 @@ registerRules(program);
 registerTrain(program);
 registerAlerts(program);
 registerLabel(program);
+registerWatch(program);
 
 async function run(): Promise<void> {
   try {

@@ -60,7 +60,7 @@ export class DetectorEngine {
   readonly floors: Floors;
   runWindows = 0;
   readonly stats = { hostWindows: 0, findings: 0, modelsEvicted: 0 };
-  private readonly detectors: Detector[];
+  private detectors: Detector[];
   private readonly values = new Float64Array(FEATURE_COUNT);
   private readonly anomalous = new Uint8Array(FEATURE_COUNT);
   private readonly idleEvictMs: number;
@@ -75,14 +75,18 @@ export class DetectorEngine {
   constructor(private agg: WindowAggregator, private opts: EngineOptions) {
     this.thresholds = thresholdsFor(opts.alpha);
     this.floors = { ...DEFAULT_FLOORS, ...opts.floors };
-    const names = (opts.enabled ?? Object.keys(DETECTORS)).filter((n) => opts.rules?.enabled(n as AlertKind) ?? true);
-    this.detectors = names.map((n) => {
-      const d = DETECTORS[n];
-      if (!d) throw new Error(`unknown detector: ${n}`);
-      return d;
-    });
+    this.detectors = enabledDetectors(opts);
     this.idleEvictMs = opts.idleEvictMs ?? 9 * 86_400_000;
     this.baselines = new Baselines(opts.windowMs);
+  }
+
+  /**
+   * Swaps the rule set between windows (a live reload): per-host floors, enabled detectors,
+   * allowlists, maintenance windows and rule ids. Learned models and baselines stay as they are.
+   */
+  setRules(rules: RuleSet): void {
+    this.opts = { ...this.opts, rules };
+    this.detectors = enabledDetectors(this.opts);
   }
 
   onWindow(w: ClosedWindow): Finding[] {
@@ -167,4 +171,13 @@ export class DetectorEngine {
       }
     }
   }
+}
+
+function enabledDetectors(opts: EngineOptions): Detector[] {
+  const names = (opts.enabled ?? Object.keys(DETECTORS)).filter((n) => opts.rules?.enabled(n as AlertKind) ?? true);
+  return names.map((n) => {
+    const d = DETECTORS[n];
+    if (!d) throw new Error(`unknown detector: ${n}`);
+    return d;
+  });
 }

@@ -33,6 +33,7 @@ export class Sensor {
   readonly tracker: EpisodeTracker;
   /** Called after each closed window's alerts were emitted (sinks sync here). */
   onWindowClosed: ((w: ClosedWindow) => void) | null = null;
+  private rules: RuleSet | undefined;
 
   constructor(readonly opts: SensorOptions, emit: (a: Alert) => void) {
     this.aggregator = new WindowAggregator(
@@ -43,16 +44,31 @@ export class Sensor {
       alpha: opts.alpha, windowMs: opts.windowMs, floors: opts.floors, enabled: opts.enabled, learnOnly: opts.learnOnly,
       rules: opts.rules,
     });
-    const rules = opts.rules;
+    this.rules = opts.rules;
     // the tracker maps scores with the built-in limits; a rule set's own limits re-map here
-    if (rules && !rules.hasDefaultSeverity()) {
-      const inner = emit;
-      emit = (a) => inner({ ...a, severity: rules.severity(a.score) });
-    }
+    const remap = (a: Alert): void => {
+      const rules = this.rules;
+      emit(rules && !rules.hasDefaultSeverity() ? { ...a, severity: rules.severity(a.score) } : a);
+    };
     this.tracker = new EpisodeTracker({
       windowMs: opts.windowMs, sensor: opts.sensor, mode: opts.mode,
       maxAlertsPerHour: opts.maxAlertsPerHour, closeAfterQuietWindows: QUIET_WINDOWS,
-    }, emit);
+    }, remap);
+  }
+
+  /** The rule set in force (a reload may replace the one given at construction). */
+  get currentRules(): RuleSet | undefined {
+    return this.rules;
+  }
+
+  /**
+   * Replaces the rule set between records (SIGHUP in `watch`): floors, enabled detectors, allowlists,
+   * maintenance windows, rule ids and severity limits. The inside list stays the one the sensor was
+   * built with (the aggregator has already sorted hosts by it).
+   */
+  setRules(rules: RuleSet): void {
+    this.rules = rules;
+    this.engine.setRules(rules);
   }
 
   readonly record = (r: FlowRecord): void => {
