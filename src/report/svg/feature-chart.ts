@@ -61,13 +61,23 @@ export function featureChart(s: FeatureSeries, episodes: readonly EpisodeSpan[],
     + `<title id="${titleId}">${esc(`${s.host}: ${s.feature}, observed against the expected band`)}</title>${parts.join('')}</svg>`;
 }
 
+/**
+ * The axis follows the observed and expected values; the band's upper edge counts only up to a bit
+ * above them (a wide band in log1p space can reach absurd heights) and is cut at the top otherwise.
+ */
 function yScale(s: FeatureSeries): Scale {
-  let max = 0;
-  for (const a of [s.observed, s.high, s.expected]) for (const v of a) if (Number.isFinite(v) && v > max) max = v;
   const bottom = H - M.bottom, top = M.top + 4;
-  if (isCountFeature(s.feature) && wantsLog([...s.observed, ...s.high])) return logScale(max, bottom, top);
-  if (s.feature.startsWith('entropy_') || s.feature === 'failure_ratio') return linearScale(0, Math.max(1, max), bottom, top);
-  return linearScale(0, max > 0 ? max : 1, bottom, top);
+  const seen = Math.max(finiteMax(s.observed), finiteMax(s.expected));
+  if (s.feature.startsWith('entropy_') || s.feature === 'failure_ratio') return linearScale(0, Math.max(1, seen), bottom, top);
+  const log = isCountFeature(s.feature) && wantsLog([...s.observed, ...s.high]);
+  const max = Math.max(seen, Math.min(finiteMax(s.high), (log ? 10 : 1.5) * Math.max(seen, 1)));
+  return log ? logScale(max, bottom, top) : linearScale(0, max > 0 ? max : 1, bottom, top);
+}
+
+function finiteMax(values: Float64Array): number {
+  let max = 0;
+  for (const v of values) if (Number.isFinite(v) && v > max) max = v;
+  return max;
 }
 
 /** Pixel y of every value (NaN stays NaN), never above the plot area. */
