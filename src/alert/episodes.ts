@@ -97,6 +97,8 @@ export class EpisodeTracker {
   private heldSeq = 0;
   private lastWindowEnd = -Infinity;
   readonly counters: EpisodeCounters = { opened: 0, suppressedByBudget: 0, emitted: { open: 0, update: 0, closed: 0 } };
+  /** Peer and port tally entries pruned from episodes' evidence this run (the evidence cap; not stored). */
+  evidencePruned = 0;
 
   constructor(opts: EpisodeOptions, private readonly emit: (a: Alert) => void) {
     if (!(opts.windowMs > 0)) throw new RangeError('windowMs must be positive');
@@ -176,7 +178,7 @@ export class EpisodeTracker {
 
   private openEpisode(key: string, f: Finding, windowStart: number, windowEnd: number): void {
     const evidence = new EvidenceAccumulator();
-    evidence.add(f.evidence);
+    this.evidencePruned += evidence.add(f.evidence);
     const ep: Episode = {
       key, kind: f.kind, host: f.host, role: f.role,
       id: episodeId(f.kind, f.host, f.role, windowStart),
@@ -191,7 +193,7 @@ export class EpisodeTracker {
 
   private continueEpisode(ep: Episode, f: Finding, windowEnd: number): void {
     ep.endMs = windowEnd;
-    ep.evidence.add(f.evidence);
+    this.evidencePruned += ep.evidence.add(f.evidence);
     if (f.score > ep.peak.score) ep.peak = f;
     if (windowEnd - ep.lastSentMs >= this.updateEveryMs) {
       ep.lastSentMs = windowEnd;

@@ -4,7 +4,7 @@ export const MAX_TOP_PEERS = 10;
 export const MAX_TOP_PORTS = 10;
 export const MAX_SAMPLE_FLOWS = 5;
 /** Above this many distinct peers or ports the tallies are pruned to their largest entries. */
-const MAX_TALLY = 1000;
+export const MAX_TALLY = 1000;
 const PRUNE_TO = 100;
 
 const BASE_KEYS = new Set(['top_peers', 'top_ports', 'sample_flows', 'flows', 'packets', 'bytes']);
@@ -22,7 +22,8 @@ export class EvidenceAccumulator {
   private packets = 0;
   private bytes = 0;
 
-  add(e: Evidence): void {
+  /** Merges one window's evidence; returns how many tally entries were pruned (the evidence cap). */
+  add(e: Evidence): number {
     for (const p of e.top_peers) this.peers.set(p.peer, (this.peers.get(p.peer) ?? 0) + p.count);
     for (const p of e.top_ports) this.ports.set(p.port, (this.ports.get(p.port) ?? 0) + p.count);
     for (const f of e.sample_flows) {
@@ -32,8 +33,10 @@ export class EvidenceAccumulator {
     this.flows += e.flows;
     this.packets += e.packets;
     this.bytes += e.bytes;
-    if (this.peers.size > MAX_TALLY) prune(this.peers, comparePeers);
-    if (this.ports.size > MAX_TALLY) prune(this.ports, comparePorts);
+    let pruned = 0;
+    if (this.peers.size > MAX_TALLY) pruned += prune(this.peers, comparePeers);
+    if (this.ports.size > MAX_TALLY) pruned += prune(this.ports, comparePorts);
+    return pruned;
   }
 
   /** The merged evidence, with the extras (non-base keys) of `extrasFrom`, usually the peak finding's. */
@@ -91,8 +94,10 @@ function top<K>(m: Map<K, number>, cmp: (a: [K, number], b: [K, number]) => numb
   return [...m.entries()].sort(cmp).slice(0, n);
 }
 
-function prune<K>(m: Map<K, number>, cmp: (a: [K, number], b: [K, number]) => number): void {
+function prune<K>(m: Map<K, number>, cmp: (a: [K, number], b: [K, number]) => number): number {
   const keep = top(m, cmp, PRUNE_TO);
+  const dropped = m.size - keep.length;
   m.clear();
   for (const [k, v] of keep) m.set(k, v);
+  return dropped;
 }

@@ -6,6 +6,8 @@ import { formatProblem, type InputProblem } from '../util/problem.js';
 import { parseDuration, rfc3339 } from '../util/time.js';
 import { inputError, usageError } from './exit.js';
 import { Progress } from './progress.js';
+import { formatCapCounts } from '../util/caps.js';
+import { inputCapCounts } from './cap-counts.js';
 
 /** Problems printed one per line on stderr; the rest are only counted. */
 const PRINTED_PROBLEMS = 20;
@@ -60,6 +62,7 @@ async function runFlows(inputs: string[], o: FlowsOptions): Promise<void> {
   });
   const writer = new FlowRecordWriter(process.stdout, o.format as FlowOutputFormat);
   const sink = (r: Parameters<FlowRecordWriter['write']>[0]) => writer.write(r);
+  const summaries: IngestSummary[] = [];
   for (const name of inputs) {
     let summary: IngestSummary;
     try {
@@ -75,8 +78,10 @@ async function runFlows(inputs: string[], o: FlowsOptions): Promise<void> {
     if (summary.stoppedBy && summary.stoppedBy.offset === 0) {
       throw inputError(`${name}: ${summary.stoppedBy.message}`);
     }
+    summaries.push(summary);
     if (!o.quiet) process.stderr.write(summaryText(name, summary));
   }
+  if (!o.quiet) process.stderr.write(`${formatCapCounts(inputCapCounts(summaries))}\n`);
   if (problems.more > 0 && !o.quiet) process.stderr.write(`tidewatch flows: ${problems.more} more problems not shown\n`);
 }
 

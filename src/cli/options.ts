@@ -2,7 +2,8 @@ import { hostname } from 'node:os';
 import { Option, type Command } from 'commander';
 import { DEFAULT_INTERNAL, parseCidr } from '../util/addr.js';
 import { parseDuration } from '../util/time.js';
-import { INPUT_FORMATS, type InputFormat } from '../ingest/types.js';
+import { DEFAULT_INGEST, INPUT_FORMATS, type InputFormat } from '../ingest/types.js';
+import { DEFAULT_MAX_HOSTS } from '../window/aggregator.js';
 import { MAX_ALPHA } from '../detect/thresholds.js';
 import type { SensorOptions } from '../sensor/sensor.js';
 import { usageError } from './exit.js';
@@ -18,13 +19,15 @@ export function addSensorOptions(cmd: Command): Command {
     .option('--rules <path>', 'rule file or folder (default: the shipped rules/); an invalid set stops the command')
     .option('--sensor <name>', 'sensor name carried in every alert', hostname())
     .option('--lateness <duration>', 'allowed lateness (default 5s for captures, 120s for flow exports)')
+    .option('--max-flows <n>', `capture flow table: flows held at once, least recently seen evicted past it (default ${DEFAULT_INGEST.maxFlows})`)
+    .option('--max-hosts <n>', `distinct addresses tracked; past it records bringing a new address are dropped, counted (default ${DEFAULT_MAX_HOSTS})`)
     .addOption(new Option('--input-format <fmt>', 'override format sniffing').choices([...INPUT_FORMATS]))
     .option('--quiet', 'no progress or summary on stderr');
 }
 
 export interface RawSensorOptions {
   window: string; alpha: string; maxAlertsPerHour?: string; internal?: string; sensor: string;
-  lateness?: string; inputFormat?: InputFormat; quiet?: boolean; rules?: string;
+  lateness?: string; inputFormat?: InputFormat; quiet?: boolean; rules?: string; maxFlows?: string; maxHosts?: string;
 }
 
 export interface ParsedSensorOptions {
@@ -32,6 +35,9 @@ export interface ParsedSensorOptions {
   latenessMs: number | undefined;
   inputFormat: InputFormat | undefined;
   quiet: boolean;
+  /** Caps (src/util/caps.ts): capture flow table and window-stage hosts. */
+  maxFlows: number;
+  maxHosts: number;
 }
 
 export function parseSensorOptions(o: RawSensorOptions): ParsedSensorOptions {
@@ -58,7 +64,16 @@ export function parseSensorOptions(o: RawSensorOptions): ParsedSensorOptions {
   return {
     sensor: { windowMs, alpha, internal, sensor: o.sensor, maxAlertsPerHour, rules },
     latenessMs, inputFormat: o.inputFormat, quiet: o.quiet === true,
+    maxFlows: positiveInt('--max-flows', o.maxFlows, DEFAULT_INGEST.maxFlows),
+    maxHosts: positiveInt('--max-hosts', o.maxHosts, DEFAULT_MAX_HOSTS),
   };
+}
+
+function positiveInt(flag: string, text: string | undefined, dflt: number): number {
+  if (text === undefined) return dflt;
+  const n = Number(text);
+  if (!Number.isSafeInteger(n) || n < 1) throw usageError(`${flag}: expected a positive integer, got ${text}`);
+  return n;
 }
 
 /** Default allowed lateness by input kind (DESIGN: 5 s for captures, the export's timeout for flows). */

@@ -7,6 +7,8 @@ import { describeInputs, runInputs } from './run-inputs.js';
 import { EXIT_ALERTS, EXIT_INPUT, inputError } from './exit.js';
 import { Progress } from './progress.js';
 import { SensorState } from '../store/session.js';
+import { formatCapCounts } from '../util/caps.js';
+import { inputCapCounts, sensorCapCounts } from './cap-counts.js';
 
 interface ReplayRaw extends RawSensorOptions {
   out?: string; format?: string; color?: boolean; failOnAlert?: boolean; state?: string; showSuppressed?: boolean;
@@ -34,8 +36,9 @@ export function register(program: Command): void {
     const sensor = new Sensor({ ...parsed.sensor, mode: 'replay', latenessMs: parsed.latenessMs ?? 5_000 }, state ? state.emitter(emit) : emit);
     sensor.onWindowClosed = () => output.sync();
     state?.attach(sensor);
+    sensor.aggregator.maxHosts = parsed.maxHosts;
     const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
-      windowMs: parsed.sensor.windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet, progress,
+      windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet, progress,
       onFormat: (f) => sensor.setLateness(parsed.latenessMs ?? defaultLateness(f)),
     });
     // with state, open episodes continue in the next run instead of closing here
@@ -47,6 +50,7 @@ export function register(program: Command): void {
       const kinds = [...output.counts.entries()].map(([k, n]) => `${k}=${n}`).join(', ');
       process.stderr.write(`windows ${st.windowsClosed}, hosts ${sensor.aggregator.addresses.size}, late records ${st.late}; `
         + `alerts ${output.total}${kinds ? ` (${kinds})` : ''}; suppressed by budget ${sensor.tracker.counters.suppressedByBudget}\n`);
+      process.stderr.write(`${formatCapCounts(sensorCapCounts(sensor, inputCapCounts(summaries)))}\n`);
       if (state) process.stderr.write(`${state.summary()}\n`);
     }
     if (unreadable.length === inputs.length) throw inputError(`no readable input (${unreadable.join(', ')})`);

@@ -11,6 +11,8 @@ export interface RunInputsOptions {
   windowMs: number;
   inputFormat?: InputFormat;
   quiet: boolean;
+  /** Capture flow-table cap (default DEFAULT_INGEST.maxFlows). */
+  maxFlows?: number;
   onFormat?: (f: InputFormat) => void;
   /** Shows reading progress (default: one of our own, silent with `quiet`); pass one to clear it before other output. */
   progress?: Progress;
@@ -41,7 +43,7 @@ export async function runInputs(inputs: readonly string[], sink: FlowSink, o: Ru
   for (const name of inputs) {
     try {
       const s = await ingestInput(name, sink, {
-        ...DEFAULT_INGEST, windowMs: o.windowMs, inputFormat: o.inputFormat, onProblem, onFormat: o.onFormat,
+        ...DEFAULT_INGEST, windowMs: o.windowMs, maxFlows: o.maxFlows ?? DEFAULT_INGEST.maxFlows, inputFormat: o.inputFormat, onProblem, onFormat: o.onFormat,
         onSource: (src) => progress.watch(src),
       });
       summaries.push(s);

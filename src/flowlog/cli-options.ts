@@ -81,5 +81,7 @@ export function formatCollectorSummary(s: CollectorStats): string {
     `  ${e.exporter} ${e.format}/${e.transport}: ${e.datagrams} datagrams, ${e.messages} messages, ${e.records} records, ${e.flows} flows, `
     + `${e.malformed} malformed, ${e.unknownTemplate} unknown-template sets, ${e.sequenceLost} lost by sequence`);
   return [`collector: ${s.flows} flows from ${s.exporters.length} exporters (${s.records} records, ${s.malformed} malformed, `
-    + `${s.sequenceLost} lost by sequence${s.exportersOverCap ? `, ${s.exportersOverCap} refused over the exporter cap` : ''})`, ...lines].join('\n');
+    + `${s.sequenceLost} lost by sequence${s.exportersOverCap ? `, ${s.exportersOverCap} refused over the exporter cap` : ''}`
+    + `${s.datagramsOverCap ? `, ${s.datagramsOverCap} datagrams over the size cap` : ''}${s.templatesOverCap ? `, ${s.templatesOverCap} templates over the template cap` : ''}`
+    + `${s.pendingOverCap ? `, ${s.pendingOverCap} data sets dropped from a full wait buffer` : ''})`, ...lines].join('\n');
 }

@@ -31,6 +31,10 @@ export interface ExporterStats {
   unknownTemplate: number;
   /** IPFIX: data records lost by sequence numbers; NetFlow v9: export packets lost. */
   sequenceLost: number;
+  /** Templates refused over the per-exporter or total template cap. */
+  templatesOverCap: number;
+  /** Data sets dropped because the wait buffer for templates not yet seen was full. */
+  pendingOverCap: number;
 }
 
 export interface CollectorStats {
@@ -41,8 +45,12 @@ export interface CollectorStats {
   malformed: number;
   unknownTemplate: number;
   sequenceLost: number;
+  templatesOverCap: number;
+  pendingOverCap: number;
   /** Datagrams or connections refused because too many exporters were already known. */
   exportersOverCap: number;
+  /** Datagrams dropped unread for being longer than the datagram cap. */
+  datagramsOverCap: number;
   exporters: ExporterStats[];
 }
 
@@ -61,6 +69,14 @@ export interface CollectorHandle {
 
 /** Exporters (address and port, or TCP connections) tracked at once (ours, no source). */
 export const MAX_EXPORTERS = 4096;
+/** Longest datagram decoded: an IPFIX message or v9 packet is at most 65535 octets (RFC 7011 section 3.1). */
+export const MAX_DATAGRAM_BYTES = 65_535;
+
+/** Caps of one collector (src/util/caps.ts lists them); tests lower them. */
+export interface CollectorCaps {
+  maxExporters?: number;
+  maxDatagramBytes?: number;
+}
 export const DEFAULT_BIND = '127.0.0.1';
 
 /**
@@ -101,20 +117,22 @@ interface Exporter {
  * listeners. Templates are scoped per transport session: per exporter address and port for UDP, per
  * connection for TCP (RFC 7011 section 8). One template budget is shared by all sessions.
  */
-export async function startCollector(listen: CollectorListen, sink: FlowSink, onProblem?: (p: InputProblem) => void): Promise<CollectorHandle> {
+export async function startCollector(listen: CollectorListen, sink: FlowSink, onProblem?: (p: InputProblem) => void, caps: CollectorCaps = {}): Promise<CollectorHandle> {
+  const maxExporters = caps.maxExporters ?? MAX_EXPORTERS;
+  const maxDatagram = caps.maxDatagramBytes ?? MAX_DATAGRAM_BYTES;
   const budget = new TemplateBudget();
   const exporters = new Map<string, Exporter>();
   const closed: Exporter[] = [];
   const conns = new Set<TcpSocket>();
   const sockets: Socket[] = [];
   let server: Server | undefined;
-  let overCap = 0;
+  let overCap = 0, datagramsOverCap = 0;
   const addrs: CollectorAddresses = {};
 
   const exporter = (key: string, format: Exporter['format'], transport: Exporter['transport']): Exporter | null => {
     let e = exporters.get(key);
     if (e) return e;
-    if (exporters.size >= MAX_EXPORTERS) { overCap++; return null; }
+    if (exporters.size >= maxExporters) { overCap++; return null; }
     const name = key.slice(key.indexOf(' ') + 1);
     if (format === 'ipfix') {
       const ipfix = new IpfixDecoder(name, name, sink, budget, onProblem);
@@ -131,6 +149,7 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
     const { host, port } = parseListen(spec);
     const sock = createSocket(isIPv6(host) ? 'udp6' : 'udp4');
     sock.on('message', (msg: Buffer, r: RemoteInfo) => {
+      if (msg.length > maxDatagram) { datagramsOverCap++; return; }
       const e = exporter(`${format} ${remoteName(r.address, r.port)}`, format, 'udp');
       if (!e) return;
       e.datagrams++;
@@ -193,15 +212,16 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
       list.push({
         exporter: e.name, format: e.format, transport: e.transport, datagrams: e.datagrams, messages: c.messages,
         records: c.records, flows: c.flows, malformed: c.problems.total, unknownTemplate: c.unknownTemplateSets,
-        sequenceLost: c.sequenceLost,
+        sequenceLost: c.sequenceLost, templatesOverCap: c.templatesOverCap, pendingOverCap: c.pendingOverCap,
       });
     }
-    const sum = (k: 'datagrams' | 'messages' | 'records' | 'flows' | 'malformed' | 'unknownTemplate' | 'sequenceLost') =>
+    const sum = (k: 'datagrams' | 'messages' | 'records' | 'flows' | 'malformed' | 'unknownTemplate' | 'sequenceLost' | 'templatesOverCap' | 'pendingOverCap') =>
       list.reduce((a, x) => a + x[k], 0);
     return {
       datagrams: sum('datagrams'), messages: sum('messages'), records: sum('records'), flows: sum('flows'),
       malformed: sum('malformed'), unknownTemplate: sum('unknownTemplate'), sequenceLost: sum('sequenceLost'),
-      exportersOverCap: overCap, exporters: list,
+      templatesOverCap: sum('templatesOverCap'), pendingOverCap: sum('pendingOverCap'),
+      exportersOverCap: overCap, datagramsOverCap, exporters: list,
     };
   };
 

@@ -38,6 +38,8 @@ export class SessionCounters {
   setsDecodedLate = 0;
   /** Data sets dropped because their template never came (or the wait buffer was full). */
   unknownTemplateSets = 0;
+  /** Of those, data sets dropped at once because the wait buffer was full (the pending-sets cap). */
+  pendingOverCap = 0;
   /** Records lost by sequence numbers (IPFIX: data records; NetFlow v9: export packets). */
   sequenceLost = 0;
   sequenceResets = 0;
@@ -51,7 +53,7 @@ export class SessionCounters {
       messages: this.messages, records: this.records, flows: this.flows, optionsRecords: this.optionsRecords,
       recordsWithoutAddress: this.recordsWithoutAddress, templates: this.templates,
       templatesRedefined: this.templatesRedefined, templatesWithdrawn: this.templatesWithdrawn,
-      templatesOverCap: this.templatesOverCap, setsDecodedLate: this.setsDecodedLate,
+      templatesOverCap: this.templatesOverCap, pendingOverCap: this.pendingOverCap, setsDecodedLate: this.setsDecodedLate,
       unknownTemplateSets: this.unknownTemplateSets, sequenceLost: this.sequenceLost,
       sequenceResets: this.sequenceResets,
     };
@@ -200,6 +202,7 @@ export class ExportSession {
     const len = end - off;
     if (d.pending.length >= LIMITS.pendingSets || d.pendingBytes + len > LIMITS.pendingBytes) {
       this.counters.unknownTemplateSets++;
+      this.counters.pendingOverCap++;
       this.problem('unknown-template', inputOff, `data set for unknown template ${templateId} dropped (wait buffer full)`);
       return false;
     }

@@ -14,7 +14,12 @@ export interface WindowOptions {
   newPeerMemoryMs?: number;
   /** Pairs kept per generation in the peer history (memory bound). */
   maxHistoryPairs?: number;
+  /** Distinct addresses tracked (memory bound); past it records bringing a new address are dropped. */
+  maxHosts?: number;
 }
+
+/** Default host cap (src/util/caps.ts): ids must stay below PairHistory's 2^26. */
+export const DEFAULT_MAX_HOSTS = 2_000_000;
 
 /** One closed window: every host active in it, in both roles. */
 export interface ClosedWindow {
@@ -59,7 +64,13 @@ export class WindowAggregator {
   /** Index of the next window to close (all earlier ones are closed). */
   private nextClose = Number.NaN;
   private maxTime = Number.NEGATIVE_INFINITY;
-  readonly stats = { records: 0, late: 0, nonHostDst: 0, windowsClosed: 0, lateVolumeMoved: 0 };
+  /**
+   * `hostsOverCap`: records dropped because they would have added an address past `maxHosts`;
+   * `sketchCapped`: host-windows whose exact sets or entropy counters reached their bounds.
+   */
+  readonly stats = { records: 0, late: 0, nonHostDst: 0, windowsClosed: 0, lateVolumeMoved: 0, hostsOverCap: 0, sketchCapped: 0 };
+  /** Distinct addresses tracked at most (see WindowOptions.maxHosts); may be changed between inputs. */
+  maxHosts: number;
   private readonly W: number;
   private readonly newPeerMemory: number;
 
@@ -70,6 +81,7 @@ export class WindowAggregator {
     this.W = opts.windowMs;
     this.newPeerMemory = opts.newPeerMemoryMs ?? 3_600_000;
     this.history = new PairHistory(opts.maxHistoryPairs);
+    this.maxHosts = opts.maxHosts ?? DEFAULT_MAX_HOSTS;
   }
 
   isInsideId(id: number): boolean {
@@ -81,6 +93,13 @@ export class WindowAggregator {
     const w = Math.floor(r.start / this.W);
     if (Number.isNaN(this.nextClose)) this.nextClose = w;
     if (w < this.nextClose) { this.stats.late++; return; }
+    // past the host cap, known hosts are still followed; a record bringing a new address is dropped
+    if (this.addresses.size >= this.maxHosts && (this.addresses.peek(r.src) < 0 || this.addresses.peek(r.dst) < 0)) {
+      this.stats.hostsOverCap++;
+      if (r.end > this.maxTime) this.maxTime = r.end;
+      this.closeUpTo(this.maxTime - this.opts.latenessMs);
+      return;
+    }
     const bucket = this.bucket(w);
     const srcId = this.addresses.id(r.src);
     const dstId = this.addresses.id(r.dst);
@@ -155,6 +174,7 @@ export class WindowAggregator {
       this.open.delete(w);
       this.nextClose = w + 1;
       this.stats.windowsClosed++;
+      if (bucket) for (const h of bucket.values()) if (h.sketchCapped) this.stats.sketchCapped++;
       this.onClose({ start: w * this.W, end: (w + 1) * this.W, hosts: bucket ? [...bucket.values()] : [] });
       this.pruneRecent(w * this.W);
     }

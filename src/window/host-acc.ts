@@ -5,7 +5,7 @@ import type { FlowRecord } from '../flow/record.js';
 import { F, FEATURE_COUNT } from './features.js';
 
 /** Bound on exact (peer, port) pairs per host-window; past it counts continue in `pairCount`. */
-const PAIR_SET_CAP = 8192;
+export const PAIR_SET_CAP = 8192;
 const SAMPLE_FLOWS = 5;
 /** HyperLogLog precision of per-window distinct counts: 1.6 % standard error, exact up to 256. */
 const HLL_P = 12;
@@ -172,6 +172,13 @@ export class HostAcc {
       if (size(this.samples[i]!) < size(this.samples[min]!)) min = i;
     }
     if (size(r) > size(this.samples[min]!)) this.samples[min] = r;
+  }
+
+  /** True when a bounded set or counter of this window filled up (counts past it are estimates). */
+  get sketchCapped(): boolean {
+    const o = this.out, i = this.inn;
+    return (o !== null && (o.pairSet.size >= PAIR_SET_CAP || o.entDstPorts.saturated || o.entDstAddrs.saturated || o.entSrcPorts.saturated))
+      || (i !== null && i.entSrcAddrs.saturated);
   }
 
   /** Distinct peers this host initiated to in this window (exact up to the pair-set bound). */
