@@ -32,6 +32,12 @@ export class Baselines {
     this.plain = new BaselineBank({ windowMs, features: BASELINED_PLAIN.length, transform: 'identity', seasonal, silence: 'skip', minSpread: 0.05, minRelSpread: 0 });
   }
 
+  /** Windows starting in [fromMs, toMs) had no input at all: missing, not zero (both banks). */
+  markMissing(fromMs: number, toMs: number): void {
+    this.counts.markMissing(fromMs, toMs);
+    this.plain.markMissing(fromMs, toMs);
+  }
+
   /** The band of feature f for host at tMs, or null when f has no baseline. Reuses one object. */
   band(host: number, f: number, tMs: number, z: number): Band | null {
     const i = SLOT[f]!;

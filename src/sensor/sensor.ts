@@ -34,6 +34,8 @@ export class Sensor {
   /** Called after each closed window's alerts were emitted (sinks sync here). */
   onWindowClosed: ((w: ClosedWindow) => void) | null = null;
   private rules: RuleSet | undefined;
+  /** Start of the current run of windows without any input, NaN when the last window had input. */
+  private gapStart = Number.NaN;
 
   constructor(readonly opts: SensorOptions, emit: (a: Alert) => void) {
     this.aggregator = new WindowAggregator(
@@ -99,6 +101,14 @@ export class Sensor {
   }
 
   private closeWindow(w: ClosedWindow): void {
+    // A window with no record at all is missing input (a capture or exporter gap), not silence
+    // (METHODS.md 7.7): baselines tolerate up to 10 % of them before restarting their warm-up.
+    if (w.hosts.length === 0) {
+      if (Number.isNaN(this.gapStart)) this.gapStart = w.start;
+    } else if (!Number.isNaN(this.gapStart)) {
+      this.engine.baselines.markMissing(this.gapStart, w.start);
+      this.gapStart = Number.NaN;
+    }
     const findings = this.engine.onWindow(w);
     this.tracker.observe(findings, w.start, w.end);
     this.onWindowClosed?.(w);
