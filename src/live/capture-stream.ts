@@ -77,29 +77,30 @@ export class LiveCapture {
 }
 
 /**
- * Reads a stream (stdin) into a LiveCapture until it ends, stops, or `stop` is called. Resolves when
- * reading is over; the caller ends the capture (so a signal can close it after the last chunk).
+ * Reads a stream (stdin) into a LiveCapture until it ends, the capture stops on a fatal problem, or
+ * `stop` is called; `done` says which. The caller ends the capture.
  */
-export function pumpStream(stream: Readable, capture: LiveCapture, onReadError: (e: Error) => void): { done: Promise<void>; stop(): void } {
-  let finish!: () => void;
-  const done = new Promise<void>((r) => (finish = r));
+export type StreamEnd = 'end-of-stream' | 'stopped' | 'read-error' | 'not-readable';
+
+export function pumpStream(stream: Readable, capture: LiveCapture): { done: Promise<StreamEnd>; stop(): void } {
+  let finish!: (why: StreamEnd) => void;
+  const done = new Promise<StreamEnd>((r) => (finish = r));
   let over = false;
-  const end = () => {
+  const end = (why: StreamEnd) => {
     if (over) return;
     over = true;
     stream.off('data', onData);
     stream.pause();
-    finish();
+    finish(why);
   };
   const onData = (chunk: Buffer) => {
-    if (!capture.push(chunk)) end();
+    if (!capture.push(chunk)) end('not-readable');
   };
   stream.on('data', onData);
-  stream.once('end', end);
+  stream.once('end', () => end('end-of-stream'));
   stream.once('error', (e: Error) => {
     capture.parser.fail('read-error', `read failed: ${e.message}`);
-    onReadError(e);
-    end();
+    end('read-error');
   });
-  return { done, stop: end };
+  return { done, stop: () => end('stopped') };
 }

@@ -128,9 +128,10 @@ export class LiveRun {
           windowMs: o.windowMs, file: '-', exporter: 'stdin', onProblem: this.onProblem, onPacketTime: (ms) => this.clock.note(ms),
         }, this.sink);
         this.capture = capture;
-        pump = pumpStream(src.stdin, capture, () => {});
+        pump = pumpStream(src.stdin, capture);
         const onlySource = !src.collector && !(src.follow && src.follow.length > 0);
-        void pump.done.then(() => {
+        void pump.done.then((why) => {
+          if (why === 'stopped') return;
           this.stdinEnded = true;
           capture.end();
           if (onlySource) endRun('end-of-input');
