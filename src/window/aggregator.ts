@@ -175,7 +175,9 @@ export class WindowAggregator {
       this.nextClose = w + 1;
       this.stats.windowsClosed++;
       if (bucket) for (const h of bucket.values()) if (h.sketchCapped) this.stats.sketchCapped++;
-      this.onClose({ start: w * this.W, end: (w + 1) * this.W, hosts: bucket ? [...bucket.values()] : [] });
+      const hosts = bucket ? [...bucket.values()] : [];
+      this.onClose({ start: w * this.W, end: (w + 1) * this.W, hosts });
+      for (const h of hosts) h.release();
       this.pruneRecent(w * this.W);
     }
   }

@@ -21,12 +21,29 @@ class InitiatorSets {
   entDstPorts = new EntropyCounter();
   entDstAddrs = new EntropyCounter();
   entSrcPorts = new EntropyCounter();
+  reset(): void {
+    this.peers.reset(); this.dports.reset(); this.pairSet.clear(); this.pairCount.reset();
+    this.portsPerPeer.reset(); this.peersPerPort.reset();
+    this.entDstPorts.reset(); this.entDstAddrs.reset(); this.entSrcPorts.reset();
+  }
 }
 
 class ResponderSets {
   sources = new HyperLogLog(HLL_P);
   entSrcAddrs = new EntropyCounter();
+  reset(): void {
+    this.sources.reset(); this.entSrcAddrs.reset();
+  }
 }
+
+/**
+ * Sets and top-k lists of closed windows, reused by the next windows: typed-array allocation was the
+ * window stage's largest cost. Bounded so a burst of busy hosts does not pin memory.
+ */
+const POOL_CAP = 4096;
+const initiatorPool: InitiatorSets[] = [];
+const responderPool: ResponderSets[] = [];
+const topPool: TopK[] = [];
 
 /**
  * One host's accumulators for one window. Created per host per window (never per flow). Sparse state:
@@ -82,7 +99,7 @@ export class HostAcc {
       this.attempts++;
       if (r.outcome === 'rejected') this.rejected++;
       else if (r.outcome === 'unanswered') this.unanswered++;
-      if (r.outcome === 'rejected' || r.outcome === 'unanswered') (this.failPorts ??= new TopK(32)).add(r.dport);
+      if (r.outcome === 'rejected' || r.outcome === 'unanswered') (this.failPorts ??= topPool.pop() ?? new TopK(32)).add(r.dport);
     }
     if (r.proto === 6 && (r.flags & 0x12) === 0x02 && r.rpkts === 0) this.synOnlyOut++;
     if (newPair) this.newPeers++;
@@ -132,8 +149,8 @@ export class HostAcc {
 
   private evidence(peer: number, port: number, n: number): void {
     if (this.evPeers === null) {
-      this.evPeers = new TopK(32);
-      this.evPorts = new TopK(32);
+      this.evPeers = topPool.pop() ?? new TopK(32);
+      this.evPorts = topPool.pop() ?? new TopK(32);
       // the other role's inline key joins the lists once they exist
       if (this.out === null && this.oCount > 0) { this.evPeers.add(this.oPeer, this.oCount); this.evPorts.add(this.oDport, this.oCount); }
       if (this.inn === null && this.iCount > 0) { this.evPeers.add(this.iPeer, this.iCount); this.evPorts.add(this.iPort, this.iCount); }
@@ -144,7 +161,7 @@ export class HostAcc {
 
   private initiatorSets(): InitiatorSets {
     if (this.out) return this.out;
-    const s = new InitiatorSets();
+    const s = initiatorPool.pop() ?? new InitiatorSets();
     if (this.evPeers === null) this.evidence(this.oPeer, this.oDport, 0);
     this.out = s;
     // replay the inline key; the evidence lists took it when they were created
@@ -154,7 +171,7 @@ export class HostAcc {
 
   private responderSets(): ResponderSets {
     if (this.inn) return this.inn;
-    const s = new ResponderSets();
+    const s = responderPool.pop() ?? new ResponderSets();
     if (this.evPeers === null) this.evidence(this.iPeer, this.iPort, 0);
     this.inn = s;
     if (this.iCount > 0) {
@@ -179,6 +196,19 @@ export class HostAcc {
     const o = this.out, i = this.inn;
     return (o !== null && (o.pairSet.size >= PAIR_SET_CAP || o.entDstPorts.saturated || o.entDstAddrs.saturated || o.entSrcPorts.saturated))
       || (i !== null && i.entSrcAddrs.saturated);
+  }
+
+  /**
+   * The window is over and its findings are made: hands the sets back for reuse. The accumulator must
+   * not be used afterwards (the window stage calls this after the window's consumers returned).
+   */
+  release(): void {
+    if (this.out && initiatorPool.length < POOL_CAP) { this.out.reset(); initiatorPool.push(this.out); }
+    if (this.inn && responderPool.length < POOL_CAP) { this.inn.reset(); responderPool.push(this.inn); }
+    for (const t of [this.evPeers, this.evPorts, this.failPorts]) {
+      if (t && topPool.length < 3 * POOL_CAP) { t.reset(); topPool.push(t); }
+    }
+    this.out = null; this.inn = null; this.evPeers = null; this.evPorts = null; this.failPorts = null;
   }
 
   /** Distinct peers this host initiated to in this window (exact up to the pair-set bound). */
