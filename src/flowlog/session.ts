@@ -10,15 +10,28 @@ export const LIMITS = {
   templatesPerExporter: 4096,
   templatesTotal: 65_536,
   domainsPerExporter: 1024,
+  /** Wire bytes of template definitions per session and in total (a template may have 16 k fields). */
+  templateBytesPerExporter: 1 << 20,
+  templateBytesTotal: 64 << 20,
   /** Data sets held per (session, domain) while their template has not arrived. */
   pendingSets: 64,
   pendingBytes: 1 << 20,
+  /** Bytes of waiting data sets per session (over all its domains) and in total. */
+  pendingBytesPerExporter: 2 << 20,
+  pendingBytesTotal: 64 << 20,
 } as const;
 
-/** Templates held across all sessions of one process (collector) or one input (file). */
+/** Templates and waiting data sets held across all sessions of one process (collector) or one input (file). */
 export class TemplateBudget {
   used = 0;
-  constructor(readonly max: number = LIMITS.templatesTotal) {}
+  /** Definition bytes of the templates held, and bytes of data sets waiting for a template. */
+  bytes = 0;
+  pendingBytes = 0;
+  constructor(
+    readonly max: number = LIMITS.templatesTotal,
+    readonly maxBytes: number = LIMITS.templateBytesTotal,
+    readonly maxPendingBytes: number = LIMITS.pendingBytesTotal,
+  ) {}
 }
 
 /** Counters one transport session (an exporter, a TCP connection or a file) keeps. */
@@ -92,6 +105,8 @@ export class ExportSession {
   readonly counters = new SessionCounters();
   private readonly domains = new Map<number, Domain>();
   private templateCount = 0;
+  private templateBytes = 0;
+  private pendingBytes = 0;
   private readonly scratch = new RecordScratch();
   private readonly texts = new AddressTexts();
   private readonly ctx: TimeContext = { exportMs: 0, v9UptimeMs: -1, sysInitMs: NaN };
@@ -130,6 +145,11 @@ export class ExportSession {
   /** Installs or redefines a template, then decodes data sets that were waiting for it. */
   install(d: Domain, plan: DecodePlan): Install {
     const old = d.templates.get(plan.templateId);
+    const grow = plan.definition.length - (old ? old.definition.length : 0);
+    if (grow > 0 && (this.templateBytes + grow > LIMITS.templateBytesPerExporter || this.budget.bytes + grow > this.budget.maxBytes)) {
+      this.counters.templatesOverCap++;
+      return 'over-cap';
+    }
     if (old) {
       if (!old.sameDefinition(plan.definition)) this.counters.templatesRedefined++;
       d.templates.set(plan.templateId, plan);
@@ -143,13 +163,19 @@ export class ExportSession {
       this.budget.used++;
       this.counters.templates++;
     }
+    this.templateBytes += grow;
+    this.budget.bytes += grow;
     if (d.pending.length > 0) this.drainPending(d, plan);
     return 'ok';
   }
 
   /** Withdraws one template (RFC 7011 section 8.1); false when it was not known. */
   withdraw(d: Domain, templateId: number): boolean {
-    if (!d.templates.delete(templateId)) return false;
+    const plan = d.templates.get(templateId);
+    if (!plan) return false;
+    d.templates.delete(templateId);
+    this.templateBytes -= plan.definition.length;
+    this.budget.bytes -= plan.definition.length;
     this.templateCount--;
     this.budget.used--;
     this.counters.templatesWithdrawn++;
@@ -200,22 +226,30 @@ export class ExportSession {
   /** Keeps a data set whose template has not arrived yet (bounded); false when it was dropped. */
   hold(d: Domain, templateId: number, b: Uint8Array, off: number, end: number, exportMs: number, v9UptimeMs: number, inputOff: number): boolean {
     const len = end - off;
-    if (d.pending.length >= LIMITS.pendingSets || d.pendingBytes + len > LIMITS.pendingBytes) {
+    if (d.pending.length >= LIMITS.pendingSets || d.pendingBytes + len > LIMITS.pendingBytes
+      || this.pendingBytes + len > LIMITS.pendingBytesPerExporter || this.budget.pendingBytes + len > this.budget.maxPendingBytes) {
       this.counters.unknownTemplateSets++;
       this.counters.pendingOverCap++;
       this.problem('unknown-template', inputOff, `data set for unknown template ${templateId} dropped (wait buffer full)`);
       return false;
     }
     d.pending.push({ templateId, body: b.slice(off, end), inputOffset: inputOff, exportMs, v9UptimeMs });
-    d.pendingBytes += len;
+    this.pendingChange(d, len);
     return true;
+  }
+
+  /** Keeps the domain's, the session's and the budget's pending byte counts together. */
+  private pendingChange(d: Domain, delta: number): void {
+    d.pendingBytes += delta;
+    this.pendingBytes += delta;
+    this.budget.pendingBytes += delta;
   }
 
   private drainPending(d: Domain, plan: DecodePlan): void {
     const keep: PendingSet[] = [];
     for (const ps of d.pending) {
       if (ps.templateId !== plan.templateId) { keep.push(ps); continue; }
-      d.pendingBytes -= ps.body.length;
+      this.pendingChange(d, -ps.body.length);
       this.counters.setsDecodedLate++;
       this.decodeSet(d, plan, ps.body, 0, ps.body.length, ps.exportMs, ps.v9UptimeMs, ps.inputOffset);
     }
@@ -230,14 +264,18 @@ export class ExportSession {
         this.problem('unknown-template', ps.inputOffset, `data set for template ${ps.templateId} of domain ${d.id} never got its template; dropped`);
       }
       d.pending = [];
-      d.pendingBytes = 0;
+      this.pendingChange(d, -d.pendingBytes);
     }
   }
 
   /** Releases this session's templates from the shared budget (a closed TCP connection). */
   release(): void {
     this.budget.used -= this.templateCount;
+    this.budget.bytes -= this.templateBytes;
+    this.budget.pendingBytes -= this.pendingBytes;
     this.templateCount = 0;
+    this.templateBytes = 0;
+    this.pendingBytes = 0;
     this.domains.clear();
   }
 }
