@@ -24,6 +24,8 @@ export interface ScenarioOptions {
   episodes?: readonly IncidentEpisode[];
   /** Incident only: explicit attack sizes instead of the ones derived from scale and volume. */
   attacks?: AttackSizes;
+  /** Incident only: captured octets per packet (default 96); IP lengths stay true. */
+  snaplen?: number;
   /** Base name of the files: NAME.pcap / NAME.jsonl and NAME.truth.json; default `incident` / `rhythm` with `truth.json`. */
   name?: string;
 }
@@ -38,7 +40,7 @@ export async function generateScenario(opts: ScenarioOptions): Promise<{ dataFil
   const dataFile = join(opts.outDir, `${opts.name ?? opts.kind}.${ext}`);
   const truthFile = join(opts.outDir, opts.name ? `${opts.name}.truth.json` : 'truth.json');
   const common = { seed: opts.seed, dataFile, truthFile, hours: opts.hours, scale: opts.scale };
-  if (opts.kind === 'incident') generateIncident({ ...common, volume: opts.volume, attacks: opts.attacks, episodes: opts.episodes });
+  if (opts.kind === 'incident') generateIncident({ ...common, volume: opts.volume, attacks: opts.attacks, episodes: opts.episodes, snaplen: opts.snaplen });
   else generateRhythm(common);
   return { dataFile, truthFile };
 }
