@@ -27,6 +27,12 @@ export class SensorState {
   private pending: Filtered[] = [];
   /** Lines stored by this run (a rerun's repeats not counted), and how many of them were suppressed. */
   readonly written = { lines: 0, suppressed: 0 };
+  /**
+   * Why writing the state failed (disk full, file size limit, locked, I/O error), or null. After a
+   * failure nothing more is written: alerts still reach the outputs, the file keeps its committed
+   * windows, and its checkpoint stays the previous run's.
+   */
+  failed: string | null = null;
 
   private constructor(store: StateStore, private readonly opts: SensorStateOptions, readonly path: string) {
     this.store = store;
@@ -55,7 +61,7 @@ export class SensorState {
     if (decisions) this.filter = new LabelFilter(this.store.labels(), fromJson<[string, LabelDecision][]>(decisions));
     const before = sensor.onWindowClosed;
     sensor.onWindowClosed = (w) => {
-      this.store.transaction(() => this.writeWindow(w));
+      this.guarded(() => this.writeWindow(w));
       before?.(w);
     };
   }
@@ -65,7 +71,7 @@ export class SensorState {
     const sensor = this.sensor;
     if (!sensor) throw new Error('SensorState.suspend before attach');
     sensor.suspend();
-    this.store.transaction(() => {
+    this.guarded(() => {
       this.flushAlerts();
       saveCheckpoint(this.store, sensor);
       this.store.putState('labels', toJson(this.filter.openDecisions()));
@@ -73,13 +79,39 @@ export class SensorState {
   }
 
   close(): void {
-    this.store.close();
+    try {
+      this.store.close();
+    } catch (e) {
+      this.fail(e);
+    }
+  }
+
+  /** One transaction; a failure rolls it back whole, is said once on stderr, and stops the writing. */
+  private guarded(fn: () => void): void {
+    if (this.failed) { this.pending = []; return; }
+    const before = { ...this.written };
+    try {
+      this.store.transaction(fn);
+    } catch (e) {
+      Object.assign(this.written, before);
+      this.pending = [];
+      this.fail(e);
+    }
+  }
+
+  private fail(e: unknown): void {
+    if (this.failed) return;
+    const err = e as { code?: string; message?: string };
+    this.failed = `${err.code ?? 'error'}: ${String(err.message ?? e).split('\n')[0]}`;
+    process.stderr.write(`tidewatch: --state ${this.path}: write failed (${this.failed}); alerts continue on the outputs; `
+      + `${this.written.lines} lines of this run were stored before it; the learned state stays the previous run's\n`);
   }
 
   /** One line for the command's stderr summary. */
   summary(): string {
     return `state ${this.path}: ${this.restored ? 'continued' : 'new'}, ${this.written.lines} alert lines stored`
-      + `${this.written.suppressed > 0 ? ` (${this.written.suppressed} suppressed by labels)` : ''}`;
+      + `${this.written.suppressed > 0 ? ` (${this.written.suppressed} suppressed by labels)` : ''}`
+      + `${this.failed ? `; WRITE FAILED (${this.failed}): checkpoint not written` : ''}`;
   }
 
   private writeWindow(w: ClosedWindow): void {
