@@ -11,6 +11,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { DEFAULT_GEN, generateCapture } from './gen-capture.js';
+import { benchIpfixLoad } from './ipfix-load.js';
 
 const args = process.argv.slice(2);
 const packetsArg = args.indexOf('--packets');
@@ -59,6 +60,12 @@ export const benches: Bench[] = [
   { name: 'pcap-parser packet loop (npm, count only)', input: 'capture', run: (f) => child('pcap-parser', f) },
   { name: 'replay: capture -> alerts (windows, detectors, alert lines)', input: 'capture', run: (f) => child('replay', f) },
   { name: 'replay host scaling: 1 M distinct hosts x 3 windows (records)', input: 'own', run: () => child('hosts', '1000000') },
+  // one second at the highest loss-free rate; CPU = the receiving watch process's
+  { name: 'watch: IPFIX over loopback UDP, highest loss-free rate (records)', input: 'own', run: async () => {
+    const r = await benchIpfixLoad();
+    process.stdout.write(`${r.name}: ${r.notes}\n`);
+    return { packets: r.rate, ms: 1000, cpuMs: r.receiverCpuMsPerS, maxRssKB: r.rssMB * 1024 };
+  } },
 ];
 const BASELINE = 'pcap-parser packet loop (npm, count only)';
 
