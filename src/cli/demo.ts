@@ -11,7 +11,7 @@ import { checkTruth, parseAlertLines, scoreAlerts } from '../scenario/eval.js';
 import type { Truth } from '../scenario/truth.js';
 import { AlertOutput } from './alert-output.js';
 import { renderTable } from './eval.js';
-import { defaultLateness } from './options.js';
+import { applyLateness } from './options.js';
 import { describeInputs, runInputs } from './run-inputs.js';
 import { inputError } from './exit.js';
 import { rulesFromOption } from './rules.js';
@@ -60,7 +60,7 @@ export function register(program: Command): void {
       }, emit);
       process.stderr.write(`replaying ${dataFile} (inside networks ${truth.inside.join(', ')})\n`);
       const { summaries } = await runInputs([dataFile], sensor.record, {
-        windowMs: 60_000, quiet: false, onFormat: (f) => sensor.setLateness(defaultLateness(f)),
+        windowMs: 60_000, quiet: false, onFormat: (f) => applyLateness(sensor, f),
       });
       sensor.finish();
       await output.close();

@@ -18,7 +18,7 @@ export function addSensorOptions(cmd: Command): Command {
     .option('--internal <cidrs>', `inside networks, comma-separated (default: the rule set's inside list, else ${DEFAULT_INTERNAL.join(',')})`)
     .option('--rules <path>', 'rule file or folder (default: the shipped rules/); an invalid set stops the command')
     .option('--sensor <name>', 'sensor name carried in every alert', hostname())
-    .option('--lateness <duration>', 'allowed lateness (default 5s for captures, 120s for flow exports)')
+    .option('--lateness <duration>', 'allowed lateness (default 5s for captures, 30m for flow exports)')
     .option('--max-flows <n>', `capture flow table: flows held at once, least recently seen evicted past it (default ${DEFAULT_INGEST.maxFlows})`)
     .option('--max-hosts <n>', `distinct addresses tracked; past it records bringing a new address are dropped, counted (default ${DEFAULT_MAX_HOSTS})`)
     .addOption(new Option('--input-format <fmt>', 'override format sniffing').choices([...INPUT_FORMATS]))
@@ -79,4 +79,19 @@ function positiveInt(flag: string, text: string | undefined, dflt: number): numb
 /** Default allowed lateness by input kind (DESIGN: 5 s for captures, the export's timeout for flows). */
 export function defaultLateness(format: InputFormat): number {
   return format === 'pcap' || format === 'pcapng' ? 5_000 : 120_000;
+}
+
+/** Flow-export lateness grows with the longest record seen, up to a common 30-minute active timeout. */
+export const EXPORT_LATENESS_CAP_MS = 1_800_000;
+
+/**
+ * Sets the sensor's lateness for a replayed input of `format`: an explicit `--lateness` is kept as
+ * given; captures get 5 s; flow exports get EXPORT_LATENESS_CAP_MS, since their records arrive when the
+ * flow, or the exporter's active timeout, ends (offline, waiting costs nothing but a few open
+ * windows). Live inputs start shorter and let the lateness grow with the records (`watch`).
+ */
+export function applyLateness(sensor: { setLateness(ms: number, adaptUpToMs?: number): void }, format: InputFormat, explicitMs?: number): void {
+  if (explicitMs !== undefined) sensor.setLateness(explicitMs);
+  else if (format === 'pcap' || format === 'pcapng') sensor.setLateness(defaultLateness(format));
+  else sensor.setLateness(EXPORT_LATENESS_CAP_MS);
 }

@@ -2,7 +2,7 @@ import type { Command } from 'commander';
 import type { Alert } from '../alert/alert.js';
 import { Sensor } from '../sensor/sensor.js';
 import { AlertOutput } from './alert-output.js';
-import { addSensorOptions, defaultLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
+import { addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { describeInputs, runInputs } from './run-inputs.js';
 import { EXIT_ALERTS, EXIT_INPUT, inputError } from './exit.js';
 import { Progress } from './progress.js';
@@ -39,7 +39,7 @@ export function register(program: Command): void {
     sensor.aggregator.maxHosts = parsed.maxHosts;
     const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
       windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet, progress,
-      onFormat: (f) => sensor.setLateness(parsed.latenessMs ?? defaultLateness(f)),
+      onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
     });
     // with state, open episodes continue in the next run instead of closing here
     if (state) { state.suspend(); state.close(); } else sensor.finish();

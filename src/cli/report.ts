@@ -4,7 +4,7 @@ import type { Alert } from '../alert/alert.js';
 import { collectReportData, latestEpisodes, readAlertsFile, renderReport, replayEpisodes, type EpisodeSpan, type Feed } from '../report/index.js';
 import type { Sensor } from '../sensor/sensor.js';
 import { formatProblem } from '../util/problem.js';
-import { addSensorOptions, defaultLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
+import { addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { runInputs } from './run-inputs.js';
 import { openExisting } from './alerts.js';
 import { Progress } from './progress.js';
@@ -52,7 +52,7 @@ export function register(program: Command): void {
     const feed: Feed = async (sensor: Sensor) => {
       const { summaries, unreadable } = await runInputs(raw.input, sensor.record, {
         windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet, progress,
-        onFormat: (f) => sensor.setLateness(parsed.latenessMs ?? defaultLateness(f)),
+        onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
       });
       if (unreadable.length === raw.input.length) throw inputError(`no readable input (${unreadable.join(', ')})`);
       return summaries;

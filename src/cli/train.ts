@@ -1,7 +1,7 @@
 import type { Command } from 'commander';
 import { Sensor } from '../sensor/sensor.js';
 import { SensorState } from '../store/session.js';
-import { addSensorOptions, defaultLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
+import { addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { describeInputs, runInputs } from './run-inputs.js';
 import { EXIT_INPUT, inputError } from './exit.js';
 
@@ -28,7 +28,7 @@ export function register(program: Command): void {
       state.attach(sensor);
       const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
         windowMs: parsed.sensor.windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet,
-        onFormat: (f) => sensor.setLateness(parsed.latenessMs ?? defaultLateness(f)),
+        onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
       });
       state.suspend();
       if (!parsed.quiet) {

@@ -77,8 +77,9 @@ export class Sensor {
     this.aggregator.add(r);
   };
 
-  setLateness(ms: number): void {
-    this.aggregator.setLateness(ms);
+  /** Allowed lateness; `adaptUpToMs` lets it grow with the longest record seen (flow exports). */
+  setLateness(ms: number, adaptUpToMs = 0): void {
+    this.aggregator.setLateness(ms, adaptUpToMs);
   }
 
   /** Moves event time forward without data (live idleness). */

@@ -61,3 +61,18 @@ describe('WindowAggregator', () => {
     expect(agg.isRare(agg.addresses.peek('203.0.113.9'))).toBe(false);
   });
 });
+
+describe('records longer than a window (flow exports)', () => {
+  it('spread packets and octets over the windows they cover, in proportion to time (common practice, no source)', () => {
+    const { agg, closed } = make();
+    agg.setLateness(30 * 60_000);
+    // a 3-minute record exported at its end: 1/3 of its octets in each minute
+    agg.add({ ...r('10.60.1.1', '198.51.100.7', T0, 300_000), end: T0 + 180_000, pkts: 300 });
+    agg.finish();
+    expect(closed.map((w) => (w.start - T0) / 60_000)).toEqual([0, 1, 2]);
+    const bytes = closed.map((w) => w.hosts.get('10.60.1.1')![F.bytes_out]);
+    const flows = closed.map((w) => w.hosts.get('10.60.1.1')![F.flows_out]);
+    expect(bytes.map((b) => Math.round(b!))).toEqual([100_000, 100_000, 100_000]);
+    expect(flows).toEqual([1, 0, 0]);
+  });
+});

@@ -90,9 +90,14 @@ export class WindowAggregator {
 
   add(r: FlowRecord): void {
     this.stats.records++;
-    const w = Math.floor(r.start / this.W);
-    if (Number.isNaN(this.nextClose)) this.nextClose = w;
-    if (w < this.nextClose) { this.stats.late++; return; }
+    const first = Math.floor(r.start / this.W);
+    // the window holding the record's last instant (an end exactly on a boundary belongs before it)
+    const last = r.end > r.start ? Math.max(first, Math.ceil(r.end / this.W) - 1) : first;
+    if (Number.isNaN(this.nextClose)) this.nextClose = first;
+    if (last < this.nextClose) { this.stats.late++; return; }
+    if (this.adaptiveLatenessMs > 0) this.adaptLateness(r);
+    // the record's own window, or the first still open when it began before the watermark
+    const w = first < this.nextClose ? this.nextClose : first;
     // past the host cap, known hosts are still followed; a record bringing a new address is dropped
     if (this.addresses.size >= this.maxHosts && (this.addresses.peek(r.src) < 0 || this.addresses.peek(r.dst) < 0)) {
       this.stats.hostsOverCap++;
@@ -112,12 +117,23 @@ export class WindowAggregator {
       if (srcInside && this.prevalence[dstId]! < 65535) this.prevalence[dstId]!++;
       this.onFirstContact?.(srcId, dstId, r);
     }
+    // A record longer than a window (flow exports with long active timeouts) spreads its packets and
+    // octets over the windows it covers, in proportion to time; its first window also takes the share
+    // of windows already closed. Counts of flows, peers and ports stay with the first window.
+    const share = last > w ? (Math.min(r.end, (w + 1) * this.W) - r.start) / (r.end - r.start) : 1;
+    if (first < w) this.stats.lateVolumeMoved++;
     const src = this.acc(bucket, srcId);
-    src.asInitiator(r, dstId, newPair);
+    src.asInitiator(r, dstId, newPair, share);
     if (srcInside) this.trackNewPeer(src, srcId, dstId, newPair, r);
-
-    if (isNonHost(r.dst)) this.stats.nonHostDst++;
-    else this.acc(bucket, dstId).asResponder(r, srcId);
+    const toHost = !isNonHost(r.dst);
+    if (toHost) this.acc(bucket, dstId).asResponder(r, srcId, share);
+    else this.stats.nonHostDst++;
+    for (let k = w + 1; k <= last; k++) {
+      const f = (Math.min(r.end, (k + 1) * this.W) - k * this.W) / (r.end - r.start);
+      const b = this.bucket(k);
+      this.acc(b, srcId).volumeAsInitiator(r, f);
+      if (toHost) this.acc(b, dstId).volumeAsResponder(r, f);
+    }
 
     if (r.end > this.maxTime) this.maxTime = r.end;
     this.closeUpTo(this.maxTime - this.opts.latenessMs);
@@ -147,9 +163,25 @@ export class WindowAggregator {
     return others <= Math.max(1, Math.floor(this.insideHosts * 0.02));
   }
 
-  /** Allowed lateness can change between inputs (captures 5 s, flow exports longer). */
-  setLateness(ms: number): void {
+  /**
+   * Allowed lateness can change between inputs (captures 5 s, flow exports longer). With
+   * `adaptUpToMs` it also grows with the longest record seen, up to that bound: an exporter's records
+   * arrive when their flow (or its active timeout) ends, so the lateness should cover their duration.
+   */
+  setLateness(ms: number, adaptUpToMs = 0): void {
     this.opts = { ...this.opts, latenessMs: ms };
+    this.adaptiveLatenessMs = adaptUpToMs;
+  }
+
+  get latenessMs(): number {
+    return this.opts.latenessMs;
+  }
+
+  private adaptiveLatenessMs = 0;
+
+  private adaptLateness(r: FlowRecord): void {
+    const want = Math.min(this.adaptiveLatenessMs, r.end - r.start + 5_000);
+    if (want > this.opts.latenessMs) this.opts = { ...this.opts, latenessMs: want };
   }
 
   /** Advances the watermark without a record (wall-clock idleness, end of a quiet input). */

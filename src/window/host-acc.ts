@@ -77,12 +77,13 @@ export class HostAcc {
 
   constructor(readonly hostId: number) {}
 
-  /** The host initiated `r` to peer `peerId`. */
-  asInitiator(r: FlowRecord, peerId: number, newPair: boolean): void {
+  /**
+   * The host initiated `r` to peer `peerId`; `share` of its packets and octets fall in this window
+   * (records longer than a window spread over the windows they cover).
+   */
+  asInitiator(r: FlowRecord, peerId: number, newPair: boolean, share = 1): void {
     this.flowsOut++;
-    this.pktsOut += r.pkts; this.bytesOut += r.bytes;
-    this.pktsIn += r.rpkts; this.bytesIn += r.rbytes;
-    if (r.proto !== 6) { this.nontcpOut += r.bytes; this.nontcpIn += r.rbytes; }
+    this.volumeAsInitiator(r, share);
     let fresh: boolean;
     if (this.out === null && (this.oCount === 0 || (peerId === this.oPeer && r.dport === this.oDport && r.sport === this.oSport))) {
       fresh = this.oCount === 0;
@@ -106,12 +107,24 @@ export class HostAcc {
     this.sample(r);
   }
 
-  /** The host answered (or was sent) `r` from peer `peerId`. */
-  asResponder(r: FlowRecord, peerId: number): void {
+  /** Packets and octets of `r` in this window for its initiator, scaled by `share`. */
+  volumeAsInitiator(r: FlowRecord, share: number): void {
+    this.pktsOut += r.pkts * share; this.bytesOut += r.bytes * share;
+    this.pktsIn += r.rpkts * share; this.bytesIn += r.rbytes * share;
+    if (r.proto !== 6) { this.nontcpOut += r.bytes * share; this.nontcpIn += r.rbytes * share; }
+  }
+
+  /** Packets and octets of `r` in this window for its responder, scaled by `share`. */
+  volumeAsResponder(r: FlowRecord, share: number): void {
+    this.pktsIn += r.pkts * share; this.bytesIn += r.bytes * share;
+    this.pktsOut += r.rpkts * share; this.bytesOut += r.rbytes * share;
+    if (r.proto !== 6) { this.nontcpIn += r.bytes * share; this.nontcpOut += r.rbytes * share; }
+  }
+
+  /** The host answered (or was sent) `r` from peer `peerId`; `share` as for asInitiator. */
+  asResponder(r: FlowRecord, peerId: number, share = 1): void {
     this.flowsIn++;
-    this.pktsIn += r.pkts; this.bytesIn += r.bytes;
-    this.pktsOut += r.rpkts; this.bytesOut += r.rbytes;
-    if (r.proto !== 6) { this.nontcpIn += r.bytes; this.nontcpOut += r.rbytes; }
+    this.volumeAsResponder(r, share);
     if (this.inn === null && (this.iCount === 0 || (peerId === this.iPeer && r.dport === this.iPort))) {
       if (this.iCount === 0) { this.iPeer = peerId; this.iPort = r.dport; }
       this.iCount++;

@@ -3,7 +3,7 @@ import { DEFAULT_INGEST } from '../../src/ingest/types.js';
 import { Sensor, type SensorOptions } from '../../src/sensor/sensor.js';
 import type { Alert } from '../../src/alert/alert.js';
 import { alertToJson } from '../../src/alert/serialize.js';
-import { defaultLateness } from '../../src/cli/options.js';
+import { applyLateness } from '../../src/cli/options.js';
 
 /** Replays files through the sensor in-process (what `tidewatch replay` does) and returns the feed lines. */
 export async function replayFiles(
@@ -14,7 +14,7 @@ export async function replayFiles(
     windowMs: 60_000, latenessMs: 5_000, alpha: 0.001, internal: inside, sensor: 'test', mode: 'replay', ...extra,
   }, (a) => alerts.push(a));
   for (const f of files) {
-    await ingestInput(f, sensor.record, { ...DEFAULT_INGEST, onFormat: (fmt) => sensor.setLateness(defaultLateness(fmt)) });
+    await ingestInput(f, sensor.record, { ...DEFAULT_INGEST, onFormat: (fmt) => applyLateness(sensor, fmt) });
   }
   sensor.finish();
   return { alerts, lines: alerts.map(alertToJson) };
