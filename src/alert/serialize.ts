@@ -72,5 +72,6 @@ export function jsonNumber(x: number, decimals?: number): string {
 }
 
 function str(s: string): string {
-  return JSON.stringify(String(s)).replace(/\u2028/g, '\\u2028').replace(/\u2029/g, '\\u2029');
+  // DEL and C1 controls too (JSON leaves them raw): a feed read on a terminal cannot steer it
+  return JSON.stringify(String(s)).replace(/[\u007f-\u009f\u2028\u2029]/g, (c) => `\\u${c.charCodeAt(0).toString(16).padStart(4, '0')}`);
 }

@@ -6,8 +6,11 @@ import { formatProblem, type InputProblem } from '../util/problem.js';
 import { parseDuration, rfc3339 } from '../util/time.js';
 import { inputError, usageError } from './exit.js';
 import { Progress } from './progress.js';
+import { escapeControls } from '../sink/console.js';
 import { formatCapCounts } from '../util/caps.js';
 import { inputCapCounts } from './cap-counts.js';
+
+const CONTROLS = /[\u0000-\u001f\u007f-\u009f\u2028\u2029]/;
 
 /** Problems printed one per line on stderr; the rest are only counted. */
 const PRINTED_PROBLEMS = 20;
@@ -51,7 +54,7 @@ async function runFlows(inputs: string[], o: FlowsOptions): Promise<void> {
     if (problems.printed < PRINTED_PROBLEMS) {
       problems.printed++;
       progress.clear();
-      process.stderr.write(`${formatProblem(p)}\n`);
+      process.stderr.write(`${escapeControls(formatProblem(p))}\n`);
     } else problems.more++;
   };
   const opts: IngestOptions = { ...ingestOptions(o), onProblem, onSource: (src) => progress.watch(src) };
@@ -61,7 +64,9 @@ async function runFlows(inputs: string[], o: FlowsOptions): Promise<void> {
     throw e;
   });
   const writer = new FlowRecordWriter(process.stdout, o.format as FlowOutputFormat);
-  const sink = (r: Parameters<FlowRecordWriter['write']>[0]) => writer.write(r);
+  // flow logs name their own exporter: on a terminal its control characters are escaped
+  const tty = process.stdout.isTTY === true;
+  const sink = (r: Parameters<FlowRecordWriter['write']>[0]) => writer.write(tty && CONTROLS.test(r.exporter) ? { ...r, exporter: escapeControls(r.exporter) } : r);
   const summaries: IngestSummary[] = [];
   for (const name of inputs) {
     let summary: IngestSummary;
@@ -70,16 +75,16 @@ async function runFlows(inputs: string[], o: FlowsOptions): Promise<void> {
     } catch (e) {
       await writer.drained();
       // ingestInput throws one-line errors only for inputs it cannot open or recognise
-      throw inputError(e instanceof Error ? e.message : String(e));
+      throw inputError(escapeControls(e instanceof Error ? e.message : String(e)));
     } finally {
       progress.stop();
     }
     await writer.drained();
     if (summary.stoppedBy && summary.stoppedBy.offset === 0) {
-      throw inputError(`${name}: ${summary.stoppedBy.message}`);
+      throw inputError(escapeControls(`${name}: ${summary.stoppedBy.message}`));
     }
     summaries.push(summary);
-    if (!o.quiet) process.stderr.write(summaryText(name, summary));
+    if (!o.quiet) process.stderr.write(summaryText(name, summary).split('\n').map(escapeControls).join('\n'));
   }
   if (!o.quiet) process.stderr.write(`${formatCapCounts(inputCapCounts(summaries))}\n`);
   if (problems.more > 0 && !o.quiet) process.stderr.write(`tidewatch flows: ${problems.more} more problems not shown\n`);

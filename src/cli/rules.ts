@@ -2,6 +2,7 @@ import type { Command } from 'commander';
 import { loadRules, shippedRulesDir } from '../rules/load.js';
 import type { RuleSet } from '../rules/ruleset.js';
 import { CliError, EXIT_USAGE } from './exit.js';
+import { escapeControls } from '../sink/console.js';
 
 /**
  * The rule set for a command's `--rules PATH` (default: the shipped rules/). An invalid set stops the
@@ -9,7 +10,7 @@ import { CliError, EXIT_USAGE } from './exit.js';
  */
 export function rulesFromOption(path: string | undefined): RuleSet {
   const r = loadRules(path ?? shippedRulesDir());
-  if ('errors' in r) throw new CliError(`invalid rule set (${countText(r.errors.length, 'error')}):\n${r.errors.join('\n')}`, EXIT_USAGE);
+  if ('errors' in r) throw new CliError(`invalid rule set (${countText(r.errors.length, 'error')}):\n${r.errors.map(escapeControls).join('\n')}`, EXIT_USAGE);
   return r.ok;
 }
 
@@ -44,7 +45,8 @@ export function register(program: Command): void {
     .action((path: string | undefined) => {
       const r = loadRules(path ?? shippedRulesDir());
       if ('errors' in r) {
-        for (const e of r.errors) process.stdout.write(`${e}\n`);
+        // messages quote the file's own text: one line each, nothing a terminal would act on
+        for (const e of r.errors) process.stdout.write(`${escapeControls(e)}\n`);
         process.stderr.write(`tidewatch: invalid rule set (${countText(r.errors.length, 'error')})\n`);
         process.exitCode = EXIT_USAGE;
         return;

@@ -4,6 +4,7 @@ import type { FlowSink } from '../flow/record.js';
 import { formatProblem, type InputProblem } from '../util/problem.js';
 import { rfc3339 } from '../util/time.js';
 import { Progress } from './progress.js';
+import { escapeControls } from '../sink/console.js';
 
 const MAX_PRINTED_PROBLEMS = 20;
 
@@ -36,7 +37,7 @@ export async function runInputs(inputs: readonly string[], sink: FlowSink, o: Ru
   const onProblem = (p: InputProblem) => {
     if (o.quiet) return;
     progress.clear();
-    if (printed < MAX_PRINTED_PROBLEMS) process.stderr.write(`tidewatch: ${formatProblem(p)}\n`);
+    if (printed < MAX_PRINTED_PROBLEMS) process.stderr.write(`tidewatch: ${escapeControls(formatProblem(p))}\n`);
     else if (printed === MAX_PRINTED_PROBLEMS) process.stderr.write('tidewatch: further problems are counted in the summary only\n');
     printed++;
   };
@@ -50,7 +51,7 @@ export async function runInputs(inputs: readonly string[], sink: FlowSink, o: Ru
       if (s.stoppedBy && s.stoppedBy.offset === 0 && s.packets === 0 && s.records === 0) unreadable.push(name);
     } catch (e) {
       progress.clear();
-      process.stderr.write(`tidewatch: ${(e as Error).message}\n`);
+      process.stderr.write(`tidewatch: ${escapeControls((e as Error).message)}\n`);
       unreadable.push(name);
     } finally {
       progress.stop();
@@ -69,5 +70,5 @@ export function describeInputs(summaries: readonly IngestSummary[]): string[] {
     const probs = Object.entries(s.problemCounts).filter(([, n]) => n > 0);
     if (probs.length > 0) lines.push(`  problems: ${probs.map(([k, n]) => `${k}=${n}`).join(', ')}`);
   }
-  return lines;
+  return lines.map(escapeControls);
 }

@@ -42,7 +42,9 @@ export function num(x: number): string {
 
 /** Addresses and file names rarely need escaping; JSON.stringify only when they do. */
 function text(s: string): string {
-  return /^[\w.:\-/]*$/.test(s) ? `"${s}"` : JSON.stringify(s);
+  if (/^[\w.:\-/]*$/.test(s)) return `"${s}"`;
+  // DEL, C1 and the line separators as well as what JSON escapes: no field can steer a terminal
+  return JSON.stringify(s).replace(/[\u007f-\u009f\u2028\u2029]/g, (c) => `\\u${c.charCodeAt(0).toString(16).padStart(4, '0')}`);
 }
 
 // the exporter is the same for long runs of records: keep its last JSON text

@@ -1,6 +1,7 @@
 import type { Command } from 'commander';
 import type { FlowSink } from '../flow/record.js';
 import type { InputProblem } from '../util/problem.js';
+import { escapeControls } from '../sink/console.js';
 import { startCollector, type CollectorAddresses, type CollectorListen, type CollectorStats } from './collector.js';
 
 /** What `addCollectorOptions` adds to a command's parsed options. */
@@ -78,7 +79,7 @@ export function formatListening(a: CollectorAddresses): string {
 /** One line per exporter plus a total, for stderr. */
 export function formatCollectorSummary(s: CollectorStats): string {
   const lines = s.exporters.map((e) =>
-    `  ${e.exporter} ${e.format}/${e.transport}: ${e.datagrams} datagrams, ${e.messages} messages, ${e.records} records, ${e.flows} flows, `
+    `  ${escapeControls(e.exporter)} ${e.format}/${e.transport}: ${e.datagrams} datagrams, ${e.messages} messages, ${e.records} records, ${e.flows} flows, `
     + `${e.malformed} malformed, ${e.unknownTemplate} unknown-template sets, ${e.sequenceLost} lost by sequence`);
   return [`collector: ${s.flows} flows from ${s.exporters.length} exporters (${s.records} records, ${s.malformed} malformed, `
     + `${s.sequenceLost} lost by sequence${s.exportersOverCap ? `, ${s.exportersOverCap} refused over the exporter cap` : ''}`
