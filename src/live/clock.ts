@@ -17,6 +17,14 @@ export class IdleClock {
     this.fresh = 1;
   }
 
+  /**
+   * The caller's own advance (after a tick) pushed out records, such as flow updates a flow table cut:
+   * they are not new data, so the idle span goes on.
+   */
+  discardNotes(): void {
+    this.fresh = 0;
+  }
+
   /** Latest event time seen from the data (-Infinity before any). */
   get eventMs(): number {
     return Math.max(this.t[0]!, this.t[2]!);

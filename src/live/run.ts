@@ -180,6 +180,7 @@ export class LiveRun {
     const t = this.clock.tick(Date.now());
     if (Number.isNaN(t)) return;
     this.capture?.advance(t);
+    this.clock.discardNotes();
     this.o.sensor.advance(t);
   }
 

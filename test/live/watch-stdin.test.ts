@@ -63,4 +63,30 @@ describe('watch - (capture on stdin)', () => {
     expect(final.final).toBe(true);
     expect(final.sources.stdin!.ended).toBe(false);
   }, 30_000);
+
+  it('a pipe that goes quiet: idleness moves event time on, the flow table and the windows close without an end of input', async () => {
+    const status = join(dir, 'idle-status.json');
+    const w = startCli(['watch', '-', '--quiet', '--window', '2s', '--idle-after', '300ms', '--status-json', status, '--status-interval', '100ms', ...common]);
+    try {
+      await trickle(w.child.stdin!, pcap, 64 * 1024, 2, 0, 256 * 1024);
+      // every piped packet read: the packet count holds still for half a second
+      let last = -1, since = Date.now();
+      const s1 = await waitFor('all piped packets read', () => {
+        const s = readStatus(status);
+        if (!s || s.sources.stdin!.packets !== last) { last = s?.sources.stdin!.packets ?? -1; since = Date.now(); return null; }
+        return last > 0 && Date.now() - since >= 500 ? s : null;
+      });
+      // no more data: within a few seconds the flow table cuts its updates and the windows close
+      const s2 = await waitFor('windows closed by idleness', () => {
+        const s = readStatus(status);
+        return s && s.records > s1.records && s.windows_closed > s1.windows_closed ? s : null;
+      }, 10_000);
+      expect(s2.sources.stdin!.packets).toBe(s1.sources.stdin!.packets);
+      expect(Date.parse(s2.event_time!)).toBeGreaterThan(Date.parse(s1.event_time!));
+      w.child.kill('SIGTERM');
+      expect(await w.exited).toBe(0);
+    } finally {
+      w.child.kill('SIGKILL');
+    }
+  }, 30_000);
 });
