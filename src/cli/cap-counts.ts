@@ -34,3 +34,9 @@ export function sensorCapCounts(s: Pick<Sensor, 'aggregator' | 'tracker'>, into:
   addCount(into, 'alerts-over-budget', s.tracker.counters.suppressedByBudget);
   return into;
 }
+
+/** Messages dropped by the syslog sinks (queue full while the receiver is away, errors, unsent at close). */
+export function syslogCapCounts(targets: readonly { dropped: number }[], into: CapCounts = {}): CapCounts {
+  for (const t of targets) addCount(into, 'syslog-dropped', t.dropped);
+  return into;
+}

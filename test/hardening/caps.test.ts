@@ -12,7 +12,7 @@ import type { Finding } from '../../src/detect/finding.js';
 import { EvidenceAccumulator, MAX_TALLY } from '../../src/alert/evidence.js';
 import { EpisodeTracker } from '../../src/alert/episodes.js';
 import { buildPcap, frame } from '../../src/capture/testing.js';
-import { collectorCapCounts, inputCapCounts, sensorCapCounts } from '../../src/cli/cap-counts.js';
+import { collectorCapCounts, inputCapCounts, sensorCapCounts, syslogCapCounts } from '../../src/cli/cap-counts.js';
 import { startCollector } from '../../src/flowlog/collector.js';
 import { IpfixDecoder } from '../../src/flowlog/ipfix.js';
 import { LIMITS, TemplateBudget } from '../../src/flowlog/session.js';
@@ -219,6 +219,7 @@ describe('caps hold and are counted', () => {
     await sink.close(500);
     expect(threw).toBe(false);
     expect(sink.stats.dropped).toBeGreaterThanOrEqual(8);
+    expect(syslogCapCounts([sink.stats])['syslog-dropped']).toBe(sink.stats.dropped);
   });
 
   it('replay prints the caps line: flows evicted, hosts over cap and alerts over the hourly budget', async () => {
