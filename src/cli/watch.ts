@@ -8,7 +8,7 @@ import { Sensor } from '../sensor/sensor.js';
 import { SensorState } from '../store/session.js';
 import { parseDuration } from '../util/time.js';
 import { AlertOutput } from './alert-output.js';
-import { EXIT_INPUT, usageError } from './exit.js';
+import { inputError, usageError } from './exit.js';
 import { addSensorOptions, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { summarise } from './rules.js';
 
@@ -76,7 +76,7 @@ export function register(program: Command): void {
       state?.close();
       throw usageError(e.message);
     }
-    if (result.stdinUnreadable && !flowSources) process.exitCode = EXIT_INPUT;
+    if (result.stdinUnreadable && !flowSources) throw inputError('no readable input (-: not a pcap or pcapng stream)');
   });
 }
 
