@@ -3,6 +3,8 @@ import { Sensor } from '../sensor/sensor.js';
 import { SensorState } from '../store/session.js';
 import { addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { describeInputs, runInputs } from './run-inputs.js';
+import { formatCapCounts } from '../util/caps.js';
+import { inputCapCounts, sensorCapCounts } from './cap-counts.js';
 import { EXIT_INPUT, inputError } from './exit.js';
 
 interface TrainRaw extends RawSensorOptions {
@@ -26,8 +28,9 @@ export function register(program: Command): void {
     try {
       const sensor = new Sensor({ ...parsed.sensor, mode: 'replay', latenessMs: parsed.latenessMs ?? 5_000, learnOnly: true }, () => {});
       state.attach(sensor);
+      sensor.aggregator.maxHosts = parsed.maxHosts;
       const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
-        windowMs: parsed.sensor.windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet,
+        windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet,
         onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
       });
       state.suspend();
@@ -36,6 +39,7 @@ export function register(program: Command): void {
         const st = sensor.aggregator.stats;
         process.stderr.write(`state ${raw.state}: ${state.restored ? 'continued' : 'new'}, windows ${st.windowsClosed}, `
           + `hosts ${sensor.aggregator.addresses.size}, models ${sensor.engine.models.size}, peer pairs ${sensor.aggregator.history.size}, late records ${st.late}\n`);
+        process.stderr.write(`${formatCapCounts(sensorCapCounts(sensor, inputCapCounts(summaries)))}\n`);
       }
       if (unreadable.length === inputs.length) throw inputError(`no readable input (${unreadable.join(', ')})`);
       if (unreadable.length > 0) process.exitCode = EXIT_INPUT;

@@ -56,6 +56,7 @@ export function register(program: Command): void {
     const state = raw.state !== undefined ? SensorState.open(raw.state, { showSuppressed: raw.showSuppressed }) : null;
     const emit = (a: Alert) => output.emit(a);
     const sensor = new Sensor({ ...parsed.sensor, mode: 'live', latenessMs }, state ? state.emitter(emit) : emit);
+    sensor.aggregator.maxHosts = parsed.maxHosts;
     sensor.onWindowClosed = () => output.sync();
     state?.attach(sensor);
     const log = (line: string) => { process.stderr.write(`${line}\n`); };

@@ -40,11 +40,11 @@ export interface Cap {
 
 export const CAPS: readonly Cap[] = [
   {
-    name: 'flows held (capture flow table)', default: 2_000_000, unit: 'flows', option: '--max-flows (flows, replay)',
+    name: 'flows held (capture flow table)', default: 2_000_000, unit: 'flows', option: '--max-flows (flows, replay, train)',
     past: 'the least recently seen flows are emitted and evicted (1/32 of the table at once)', counter: 'flows-evicted', where: 'src/flow/table.ts',
   },
   {
-    name: 'hosts (distinct addresses in the window stage)', default: 2_000_000, unit: 'addresses', option: '--max-hosts (replay)',
+    name: 'hosts (distinct addresses in the window stage)', default: 2_000_000, unit: 'addresses', option: '--max-hosts (replay, train, watch)',
     past: 'known hosts are still followed; a record bringing a new address is dropped', counter: 'hosts-over-cap', where: 'src/window/aggregator.ts',
   },
   {
