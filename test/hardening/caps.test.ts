@@ -229,6 +229,7 @@ describe('caps hold and are counted', () => {
     const line = r.stderr.split('\n').find((l) => l.startsWith('caps reached:'));
     expect(line).toMatch(/flows-evicted=\d+/);
     expect(line).toMatch(/hosts-over-cap=\d+/);
+    expect(line).toMatch(/alerts-over-budget=[1-9]\d*/);
     expect(r.stderr).toMatch(/windows 60, hosts 200,/);
   });
 });
