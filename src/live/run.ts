@@ -3,13 +3,14 @@ import type { AddressInfo } from 'node:net';
 import type { AlertOutput } from '../cli/alert-output.js';
 import type { FlowSink } from '../flow/record.js';
 import { formatListening } from '../flowlog/cli-options.js';
-import { startCollector, type CollectorHandle, type CollectorListen } from '../flowlog/collector.js';
+import type { CollectorListen } from '../flowlog/collector.js';
 import type { Sensor } from '../sensor/sensor.js';
 import type { SensorState } from '../store/session.js';
 import type { RuleSet } from '../rules/ruleset.js';
 import { formatProblem, type InputProblem } from '../util/problem.js';
 import { rfc3339 } from '../util/time.js';
 import { LiveCapture, pumpStream } from './capture-stream.js';
+import { startCollectorThread, type CollectorThreadHandle } from './collector-thread.js';
 import { IdleClock } from './clock.js';
 import { FileFollower } from './follow.js';
 import { formatStatusLine, megabytes, STATUS_SCHEMA, syslogStatus, writeStatusJson, type LiveStatus } from './status.js';
@@ -74,7 +75,7 @@ export class LiveRun {
   private capture: LiveCapture | null = null;
   private stdinEnded = false;
   private readonly followers: FileFollower[] = [];
-  private collector: CollectorHandle | null = null;
+  private collector: CollectorThreadHandle | null = null;
   private printedProblems = 0;
   private problems = 0;
   private rules = { files: 0, reloads: 0, refused: 0 };
@@ -118,7 +119,7 @@ export class LiveRun {
     const status = setInterval(() => this.reportStatus(false), o.statusEveryMs);
     try {
       if (src.collector) {
-        this.collector = await startCollector(src.collector, this.sink, this.onProblem).catch((e: Error) => {
+        this.collector = await startCollectorThread(src.collector, this.sink, this.onProblem).catch((e: Error) => {
           throw new ListenError(e.message);
         });
         if (!o.quiet) o.log(`tidewatch: ${formatListening(this.collector.addresses())}`);
@@ -270,6 +271,7 @@ export class LiveRun {
         late_records: agg.late,
         syslog: syslog.reduce((n, s) => n + s.dropped, 0),
         sequence_lost: col?.sequenceLost ?? 0,
+        collector_backlog: this.collector?.backlogDropped() ?? 0,
         malformed: this.problems,
       },
       memory: { rss_mb: megabytes(mem.rss), heap_used_mb: megabytes(mem.heapUsed) },

@@ -29,6 +29,8 @@ export interface LiveStatus {
     syslog: number;
     /** IPFIX records (NetFlow v9: export packets) missing by sequence numbers. */
     sequence_lost: number;
+    /** Records the collector thread gave up because the sensor was too far behind (bounded backlog). */
+    collector_backlog: number;
     /** Input problems (malformed datagrams, messages, packets or lines), summed over the sources. */
     malformed: number;
   };
@@ -54,9 +56,9 @@ export function syslogStatus(s: readonly SyslogTargetStats[]): LiveStatus['syslo
 /** The stderr line: the figures an operator watches, in one line. */
 export function formatStatusLine(s: LiveStatus): string {
   const d = s.drops;
-  const drops = d.late_records + d.syslog + d.sequence_lost;
+  const drops = d.late_records + d.syslog + d.sequence_lost + d.collector_backlog;
   return `status: ${s.records_per_s.toFixed(0)} records/s, ${s.windows_closed} windows closed, ${s.hosts_tracked} hosts tracked, `
-    + `${s.alerts} alerts, ${drops} drops (late ${d.late_records}, syslog ${d.syslog}, lost by sequence ${d.sequence_lost}), `
+    + `${s.alerts} alerts, ${drops} drops (late ${d.late_records}, syslog ${d.syslog}, lost by sequence ${d.sequence_lost}, backlog ${d.collector_backlog}), `
     + `${d.malformed} malformed, rss ${s.memory.rss_mb} MB${s.event_time ? `, event time ${s.event_time}` : ''}`;
 }
 

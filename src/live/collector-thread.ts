@@ -1,0 +1,70 @@
+import { Worker } from 'node:worker_threads';
+import type { FlowSink } from '../flow/record.js';
+import type { CollectorAddresses, CollectorHandle, CollectorListen, CollectorStats } from '../flowlog/collector.js';
+import type { InputProblem } from '../util/problem.js';
+import { readBatch, type RecordBatch } from './record-batch.js';
+
+/** Messages of the collector thread. */
+export type FromCollector =
+  | { type: 'listening'; addresses: CollectorAddresses }
+  | { type: 'error'; message: string }
+  | { type: 'records'; batch: RecordBatch }
+  | { type: 'problem'; problem: InputProblem }
+  | { type: 'stats'; stats: CollectorStats; backlogDropped: number }
+  | { type: 'closed' };
+export type ToCollector = { type: 'ack' } | { type: 'close' };
+
+/** Records per batch, how often a partial batch goes anyway, batches waiting before records are dropped (ours). */
+const BATCH_RECORDS = 1024;
+const FLUSH_MS = 50;
+/** About 4 M records: some seconds of a busy exporter while the main thread closes windows. */
+const MAX_BATCHES_IN_FLIGHT = 4096;
+
+export interface CollectorThreadHandle extends CollectorHandle {
+  /** Records the collector thread gave up because the main thread was too far behind. */
+  backlogDropped(): number;
+}
+
+/**
+ * startCollector (flowlog/collector.ts) run on a worker thread: the same listeners, sessions and
+ * counters, but the sockets are read while the main thread is busy, so a window close does not make
+ * the kernel drop datagrams. Records arrive at `sink` in order, in batches, on the main thread.
+ * Rejects with the collector's message when a listener cannot be bound.
+ */
+export function startCollectorThread(listen: CollectorListen, sink: FlowSink, onProblem?: (p: InputProblem) => void): Promise<CollectorThreadHandle> {
+  const worker = new Worker(new URL('./collector-worker.js', import.meta.url), {
+    workerData: { listen, batchRecords: BATCH_RECORDS, flushMs: FLUSH_MS, maxBatchesInFlight: MAX_BATCHES_IN_FLIGHT },
+  });
+  // the thread sends its first counters before it says it is listening
+  let stats: CollectorStats | null = null;
+  let dropped = 0;
+  let addresses: CollectorAddresses = {};
+  let onClosed: (() => void) | null = null;
+  return new Promise((resolve, reject) => {
+    worker.on('error', (e) => reject(e));
+    worker.on('message', (m: FromCollector) => {
+      switch (m.type) {
+        case 'records':
+          readBatch(m.batch, sink);
+          worker.postMessage({ type: 'ack' } satisfies ToCollector);
+          break;
+        case 'problem': onProblem?.(m.problem); break;
+        case 'stats': stats = m.stats; dropped = m.backlogDropped; break;
+        case 'error': reject(new Error(m.message)); break;
+        case 'closed': onClosed?.(); break;
+        case 'listening':
+          addresses = m.addresses;
+          resolve({
+            addresses: () => ({ ...addresses }),
+            stats: () => stats!,
+            backlogDropped: () => dropped,
+            close: () => new Promise<void>((done) => {
+              onClosed = () => { void worker.terminate().then(() => done()); };
+              worker.postMessage({ type: 'close' } satisfies ToCollector);
+            }),
+          });
+          break;
+      }
+    });
+  });
+}

@@ -1,0 +1,56 @@
+/**
+ * The flow-export collector on its own thread (started by collector-thread.ts). Its event loop only
+ * reads sockets and decodes, so datagrams keep being taken from the socket while the main thread is
+ * busy closing a window; records go to the main thread in batches.
+ */
+import { parentPort, workerData } from 'node:worker_threads';
+import { startCollector, type CollectorListen } from '../flowlog/collector.js';
+import type { InputProblem } from '../util/problem.js';
+import { BatchWriter } from './record-batch.js';
+import type { FromCollector, ToCollector } from './collector-thread.js';
+
+const port = parentPort!;
+const { listen, batchRecords, flushMs, maxBatchesInFlight } = workerData as {
+  listen: CollectorListen; batchRecords: number; flushMs: number; maxBatchesInFlight: number;
+};
+const post = (m: FromCollector, transfer?: ArrayBuffer[]) => port.postMessage(m, transfer);
+
+let writer = new BatchWriter(batchRecords);
+let inFlight = 0;
+let backlogDropped = 0;
+const flush = () => {
+  if (writer.count === 0) return;
+  const b = writer.take();
+  inFlight++;
+  post({ type: 'records', batch: b }, [b.numbers.buffer as ArrayBuffer]);
+};
+const sink = (r: Parameters<BatchWriter['add']>[0]) => {
+  // the main thread is this far behind: keep memory bounded and count what is given up
+  if (inFlight >= maxBatchesInFlight) { backlogDropped++; return; }
+  writer.add(r);
+  if (writer.full) flush();
+};
+const onProblem = (p: InputProblem) => post({ type: 'problem', problem: p });
+
+try {
+  const handle = await startCollector(listen, sink, onProblem);
+  post({ type: 'stats', stats: handle.stats(), backlogDropped });
+  post({ type: 'listening', addresses: handle.addresses() });
+  const timer = setInterval(() => {
+    flush();
+    post({ type: 'stats', stats: handle.stats(), backlogDropped });
+  }, flushMs);
+  port.on('message', (m: ToCollector) => {
+    if (m.type === 'ack') { inFlight--; return; }
+    clearInterval(timer);
+    void handle.close().then(() => {
+      flush();
+      post({ type: 'stats', stats: handle.stats(), backlogDropped });
+      post({ type: 'closed' });
+      port.close();
+    });
+  });
+} catch (e) {
+  post({ type: 'error', message: (e as Error).message });
+  port.close();
+}
