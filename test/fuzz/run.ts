@@ -39,9 +39,9 @@ function usage(msg: string): never {
   process.exit(2);
 }
 
-/** Cases of one target: its share of the parser's total, at least one. */
-export function casesFor(t: Target, perParser: number): number {
-  return Math.max(1, Math.round(perParser * t.share));
+/** Cases of one target: its share of the parser's total, rounded up so the parser gets at least its total. */
+function casesFor(t: Target, perParser: number): number {
+  return Math.max(1, Math.ceil(perParser * t.share));
 }
 
 async function main(): Promise<void> {
