@@ -9,7 +9,7 @@ import { SensorState } from '../store/session.js';
 import { parseDuration } from '../util/time.js';
 import { AlertOutput } from './alert-output.js';
 import { inputError, usageError } from './exit.js';
-import { addSensorOptions, parseSensorOptions, type RawSensorOptions } from './options.js';
+import { addSensorOptions, EXPORT_LATENESS_CAP_MS, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { summarise } from './rules.js';
 
 interface WatchRaw extends RawSensorOptions {
@@ -57,6 +57,8 @@ export function register(program: Command): void {
     const emit = (a: Alert) => output.emit(a);
     const sensor = new Sensor({ ...parsed.sensor, mode: 'live', latenessMs }, state ? state.emitter(emit) : emit);
     sensor.aggregator.maxHosts = parsed.maxHosts;
+    // an exporter with a long active timeout sends records of long flows late: lateness grows with them
+    if (parsed.latenessMs === undefined && flowSources) sensor.setLateness(latenessMs, EXPORT_LATENESS_CAP_MS);
     sensor.onWindowClosed = () => output.sync();
     state?.attach(sensor);
     const log = (line: string) => { process.stderr.write(`${line}\n`); };
