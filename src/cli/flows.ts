@@ -9,13 +9,16 @@ import { Progress } from './progress.js';
 import { escapeControls } from '../sink/console.js';
 import { formatCapCounts } from '../util/caps.js';
 import { inputCapCounts } from './cap-counts.js';
+import {
+  addCollectorOptions, formatCollectorSummary, formatListening, runCollectorForFlows, wantsCollector, type CollectorCliOptions,
+} from '../flowlog/cli-options.js';
 
 const CONTROLS = /[\u0000-\u001f\u007f-\u009f\u2028\u2029]/;
 
 /** Problems printed one per line on stderr; the rest are only counted. */
 const PRINTED_PROBLEMS = 20;
 
-interface FlowsOptions {
+interface FlowsOptions extends CollectorCliOptions {
   format: string;
   window?: string;
   idleTimeout?: string;
@@ -27,20 +30,45 @@ interface FlowsOptions {
 
 /** `tidewatch flows INPUT...`: prints FlowRecords (DESIGN.md section 3) as JSON lines or CSV. */
 export function register(program: Command): void {
-  program
+  const cmd = program
     .command('flows')
     .description('print the flow records of captures or flow exports (JSON lines or CSV) on stdout')
-    .argument('<input...>', 'capture or flow export files (format sniffed from content), - for stdin')
+    .argument('[input...]', 'capture or flow export files (format sniffed from content), - for stdin')
     .option('--format <fmt>', 'output format: jsonl or csv', 'jsonl')
     .option('--window <seconds>', 'cut flow updates at multiples of this (0 = no cuts)', '60')
     .option('--idle-timeout <seconds>', 'end a flow after this long without packets', '60')
     .option('--active-timeout <seconds>', 'cut a long flow into updates this often', '300')
     .option('--max-flows <n>', 'flows held at once; the least recently seen are evicted beyond it', String(DEFAULT_INGEST.maxFlows))
     .option('--input-format <fmt>', `skip sniffing: ${INPUT_FORMATS.join(', ')}`)
-    .option('--quiet', 'no summary or problem lines on stderr')
-    .action(async (inputs: string[], o: FlowsOptions) => {
+    .option('--quiet', 'no summary or problem lines on stderr');
+  addCollectorOptions(cmd).action(async (inputs: string[], o: FlowsOptions) => {
+    if (wantsCollector(o)) {
+      if (inputs.length > 0) throw usageError('give input files or a listener (--ipfix-listen, --netflow-listen), not both');
+      await runListener(o);
+    } else {
+      if (inputs.length === 0) throw usageError('no input: give files, - for stdin, or --ipfix-listen / --netflow-listen');
       await runFlows(inputs, o);
+    }
+  });
+}
+
+/** `flows --ipfix-listen / --netflow-listen`: records as they arrive until SIGINT/SIGTERM or --duration. */
+async function runListener(o: FlowsOptions): Promise<void> {
+  if (o.format !== 'jsonl' && o.format !== 'csv') throw usageError(`--format must be jsonl or csv, not ${o.format}`);
+  const writer = new FlowRecordWriter(process.stdout, o.format as FlowOutputFormat);
+  let stats;
+  try {
+    stats = await runCollectorForFlows(o, (r) => writer.write(r), {
+      onProblem: (p) => { if (!o.quiet) process.stderr.write(`${escapeControls(formatProblem(p))}\n`); },
+      tick: () => writer.flush(),
+      onListening: (a) => { if (!o.quiet) process.stderr.write(`tidewatch flows: ${formatListening(a)}\n`); },
     });
+  } catch (e) {
+    throw usageError(escapeControls(e instanceof Error ? e.message : String(e)));
+  }
+  writer.flush();
+  await writer.drained();
+  if (!o.quiet) process.stderr.write(`${formatCollectorSummary(stats)}\n`);
 }
 
 async function runFlows(inputs: string[], o: FlowsOptions): Promise<void> {
