@@ -10,7 +10,7 @@ export type FromCollector =
   | { type: 'error'; message: string }
   | { type: 'records'; batch: RecordBatch }
   | { type: 'problem'; problem: InputProblem }
-  | { type: 'stats'; stats: CollectorStats; backlogDropped: number }
+  | { type: 'stats'; stats: CollectorStats; backlogDropped: number; problems: number }
   | { type: 'closed' };
 export type ToCollector = { type: 'ack' } | { type: 'close' };
 
@@ -23,7 +23,12 @@ const MAX_BATCHES_IN_FLIGHT = 4096;
 export interface CollectorThreadHandle extends CollectorHandle {
   /** Records the collector thread gave up because the main thread was too far behind. */
   backlogDropped(): number;
+  /** Problems met (the first ones also went to onProblem). */
+  problemCount(): number;
 }
+
+/** A thread that does not finish closing in this time is stopped (ours). */
+const CLOSE_TIMEOUT_MS = 5000;
 
 /**
  * startCollector (flowlog/collector.ts) run on a worker thread: the same listeners, sessions and
@@ -37,11 +42,15 @@ export function startCollectorThread(listen: CollectorListen, sink: FlowSink, on
   });
   // the thread sends its first counters before it says it is listening
   let stats: CollectorStats | null = null;
-  let dropped = 0;
+  let dropped = 0, problems = 0;
+  let closing = false;
   let addresses: CollectorAddresses = {};
   let onClosed: (() => void) | null = null;
   return new Promise((resolve, reject) => {
-    worker.on('error', (e) => reject(e));
+    worker.on('error', (e) => {
+      reject(e);
+      if (!closing) onProblem?.({ file: 'collector', offset: -1, reason: 'collector-failed', message: `collector thread failed: ${e.message}`, fatal: true });
+    });
     worker.on('message', (m: FromCollector) => {
       switch (m.type) {
         case 'records':
@@ -49,7 +58,7 @@ export function startCollectorThread(listen: CollectorListen, sink: FlowSink, on
           worker.postMessage({ type: 'ack' } satisfies ToCollector);
           break;
         case 'problem': onProblem?.(m.problem); break;
-        case 'stats': stats = m.stats; dropped = m.backlogDropped; break;
+        case 'stats': stats = m.stats; dropped = m.backlogDropped; problems = m.problems; break;
         case 'error': reject(new Error(m.message)); break;
         case 'closed': onClosed?.(); break;
         case 'listening':
@@ -58,8 +67,12 @@ export function startCollectorThread(listen: CollectorListen, sink: FlowSink, on
             addresses: () => ({ ...addresses }),
             stats: () => stats!,
             backlogDropped: () => dropped,
+            problemCount: () => problems,
             close: () => new Promise<void>((done) => {
-              onClosed = () => { void worker.terminate().then(() => done()); };
+              closing = true;
+              const stop = () => { clearTimeout(timer); void worker.terminate().then(() => done()); };
+              const timer = setTimeout(stop, CLOSE_TIMEOUT_MS);
+              onClosed = stop;
               worker.postMessage({ type: 'close' } satisfies ToCollector);
             }),
           });

@@ -4,7 +4,8 @@
  * busy closing a window; records go to the main thread in batches.
  */
 import { parentPort, workerData } from 'node:worker_threads';
-import { startCollector, type CollectorListen } from '../flowlog/collector.js';
+import type { FlowRecord } from '../flow/record.js';
+import { startCollector, type CollectorListen, type CollectorStats } from '../flowlog/collector.js';
 import type { InputProblem } from '../util/problem.js';
 import { BatchWriter } from './record-batch.js';
 import type { FromCollector, ToCollector } from './collector-thread.js';
@@ -15,7 +16,7 @@ const { listen, batchRecords, flushMs, maxBatchesInFlight } = workerData as {
 };
 const post = (m: FromCollector, transfer?: ArrayBuffer[]) => port.postMessage(m, transfer);
 
-let writer = new BatchWriter(batchRecords);
+const writer = new BatchWriter(batchRecords);
 let inFlight = 0;
 let backlogDropped = 0;
 const flush = () => {
@@ -24,28 +25,35 @@ const flush = () => {
   inFlight++;
   post({ type: 'records', batch: b }, [b.numbers.buffer as ArrayBuffer]);
 };
-const sink = (r: Parameters<BatchWriter['add']>[0]) => {
+const sink = (r: FlowRecord) => {
   // the main thread is this far behind: keep memory bounded and count what is given up
   if (inFlight >= maxBatchesInFlight) { backlogDropped++; return; }
   writer.add(r);
   if (writer.full) flush();
 };
-const onProblem = (p: InputProblem) => post({ type: 'problem', problem: p });
+/** Problems forwarded one by one; past that they are only counted (a hostile exporter makes many). */
+const FORWARDED_PROBLEMS = 100;
+let problems = 0;
+const onProblem = (p: InputProblem) => {
+  if (++problems <= FORWARDED_PROBLEMS) post({ type: 'problem', problem: p });
+};
+const counters = (stats: CollectorStats): FromCollector =>
+  ({ type: 'stats', stats, backlogDropped, problems });
 
 try {
   const handle = await startCollector(listen, sink, onProblem);
-  post({ type: 'stats', stats: handle.stats(), backlogDropped });
+  post(counters(handle.stats()));
   post({ type: 'listening', addresses: handle.addresses() });
   const timer = setInterval(() => {
     flush();
-    post({ type: 'stats', stats: handle.stats(), backlogDropped });
+    post(counters(handle.stats()));
   }, flushMs);
   port.on('message', (m: ToCollector) => {
     if (m.type === 'ack') { inFlight--; return; }
     clearInterval(timer);
     void handle.close().then(() => {
       flush();
-      post({ type: 'stats', stats: handle.stats(), backlogDropped });
+      post(counters(handle.stats()));
       post({ type: 'closed' });
       port.close();
     });

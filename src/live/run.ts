@@ -92,8 +92,13 @@ export class LiveRun {
     this.o.sensor.record(r);
   };
 
+  /** Problems of stdin and followed files: counted here (the collector thread counts its own). */
   private readonly onProblem = (p: InputProblem): void => {
     this.problems++;
+    this.printProblem(p);
+  };
+
+  private readonly printProblem = (p: InputProblem): void => {
     if (this.o.quiet) return;
     if (this.printedProblems < MAX_PRINTED_PROBLEMS) this.o.log(`tidewatch: ${formatProblem(p)}`);
     else if (this.printedProblems === MAX_PRINTED_PROBLEMS) this.o.log('tidewatch: further problems are counted in the status only');
@@ -119,7 +124,7 @@ export class LiveRun {
     const status = setInterval(() => this.reportStatus(false), o.statusEveryMs);
     try {
       if (src.collector) {
-        this.collector = await startCollectorThread(src.collector, this.sink, this.onProblem).catch((e: Error) => {
+        this.collector = await startCollectorThread(src.collector, this.sink, this.printProblem).catch((e: Error) => {
           throw new ListenError(e.message);
         });
         if (!o.quiet) o.log(`tidewatch: ${formatListening(this.collector.addresses())}`);
@@ -272,7 +277,7 @@ export class LiveRun {
         syslog: syslog.reduce((n, s) => n + s.dropped, 0),
         sequence_lost: col?.sequenceLost ?? 0,
         collector_backlog: this.collector?.backlogDropped() ?? 0,
-        malformed: this.problems,
+        malformed: this.problems + (this.collector?.problemCount() ?? 0),
       },
       memory: { rss_mb: megabytes(mem.rss), heap_used_mb: megabytes(mem.heapUsed) },
       sources,
