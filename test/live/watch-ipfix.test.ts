@@ -1,3 +1,4 @@
+import { createSocket } from 'node:dgram';
 import { connect } from 'node:net';
 import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -21,16 +22,22 @@ import { DEMO_PCAP, DEMO_TRUTH, octetCountedFrames, parse5424, readStatus, sleep
 const dir = mkdtempSync(join(tmpdir(), 'tidewatch-live-ipfix-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-describe('watch --ipfix-listen with --syslog tcp://', () => {
-  it('alerts reach stdout and the syslog receiver within two windows of each episode start; frames parse', async () => {
+describe('watch --ipfix-listen with --syslog tcp:// and udp://', () => {
+  it('alerts reach stdout and the syslog receivers within two windows of each episode start; frames parse', async () => {
     const truth = JSON.parse(readFileSync(DEMO_TRUTH, 'utf8')) as Truth;
     const records: FlowRecord[] = [];
     await ingestInput(DEMO_PCAP, (r) => { records.push(r); }, { ...DEFAULT_INGEST });
     // templates once: a TCP session keeps them for its lifetime (RFC 7011 section 8.1)
     const messages = encodeIpfix(records, { templateEvery: Number.MAX_SAFE_INTEGER });
     const receiver = await syslogReceiver();
+    // and a UDP receiver: one message per datagram (RFC 5426 section 3.1)
+    const udp = createSocket('udp4');
+    const datagrams: Buffer[] = [];
+    udp.on('message', (m) => datagrams.push(m));
+    await new Promise<void>((r) => udp.bind(0, '127.0.0.1', () => r()));
     const status = join(dir, 'status.json');
     const w = startCli(['watch', '--ipfix-listen', '127.0.0.1:0', '--syslog', `tcp://127.0.0.1:${receiver.port}`,
+      '--syslog', `udp://127.0.0.1:${udp.address().port}`,
       '--status-json', status, '--status-interval', '200ms', '--internal', truth.inside.join(','), '--sensor', 'live-test']);
     try {
       // IPFIX over TCP (RFC 7011 section 10.4): the same listener as UDP, and no loss on a loaded machine,
@@ -65,6 +72,7 @@ describe('watch --ipfix-listen with --syslog tcp://', () => {
     }
     await sleep(100);
     await receiver.close();
+    udp.close();
 
     const lines = w.stdout().trim().split('\n');
     const feed = parseAlertLines(lines.join('\n'), 'stdout');
@@ -87,9 +95,10 @@ describe('watch --ipfix-listen with --syslog tcp://', () => {
       expect(m.msgid).toBe(a.kind);
       expect(m.timestamp).toMatch(/^\d{4}-\d\d-\d\dT\d\d:\d\d:\d\d(\.\d{1,6})?(Z|[+-]\d\d:\d\d)$/); // section 6.2.3
     });
+    expect(datagrams.map((d) => parse5424(d).msg)).toEqual(lines);
     const final = readStatus(join(dir, 'status.json'))!;
     expect(final.final).toBe(true);
     expect(final.alerts).toBeGreaterThan(0);
-    expect(final.syslog[0]!.dropped).toBe(0);
+    expect(final.syslog.map((t) => t.dropped)).toEqual([0, 0]);
   }, 60_000);
 });
