@@ -72,4 +72,10 @@ export interface UnitReader {
   consume(buf: Uint8Array, off: number, len: number, fileOff: number): void;
   /** Called after a skippable unit was streamed past; `tail` holds its last four octets. */
   skipped(tail: Uint8Array, len: number, fileOff: number): void;
+  /**
+   * Optional fast path: consumes the run of whole, well-formed packet units in buf[off, end) in one
+   * loop and returns the offset after the last one. It stops, without reporting, at anything the
+   * unit-by-unit path must see (a unit cut by the chunk end, a bad header), which then handles it.
+   */
+  packetRun?(buf: Uint8Array, off: number, end: number, fileOff: number): number;
 }

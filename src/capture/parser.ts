@@ -39,9 +39,12 @@ export class CaptureParser {
   }
 
   /** Feed the next chunk (may be a reused buffer). Returns false once stopped (fatal problem). */
-  push(chunk: Uint8Array): boolean {
+  push(input: Uint8Array): boolean {
     const s = this.summary;
     if (s.stopped || this.ended) return false;
+    // Files hand over Buffers, the carry is a plain Uint8Array: one plain view per chunk keeps every
+    // byte read in the readers (and the decoder after them) on one array type.
+    const chunk = input.constructor === Uint8Array ? input : new Uint8Array(input.buffer, input.byteOffset, input.length);
     const n = chunk.length;
     const base = s.inputBytes;
     s.inputBytes = base + n;
@@ -49,6 +52,11 @@ export class CaptureParser {
     if (this.skipTotal > 0) pos = this.continueSkip(chunk, 0);
     else if (this.carryLen > 0) pos = this.continueCarry(chunk, 0);
     while (pos < n && !s.stopped) {
+      const r = this.reader;
+      if (r?.packetRun) {
+        pos = r.packetRun(chunk, pos, n, base + pos);
+        if (pos >= n) break;
+      }
       const avail = n - pos;
       const need = this.headNeed(chunk, pos, avail);
       if (need === 0) break;

@@ -65,6 +65,24 @@ export class PcapReader implements UnitReader {
     // Nothing in classic pcap is skippable.
   }
 
+  /** Whole records back to back, checked as `unitLength` checks them (anything else stops the run). */
+  packetRun(buf: Uint8Array, off: number, end: number, fileOff: number): number {
+    if (!this.headerDone) return off;
+    const le = this.le, nano = this.nano, ctx = this.ctx, linkType = this.linkType;
+    const subLimit = nano ? 1_000_000_000 : 1_000_000;
+    const capLimit = this.snaplen !== 0 && this.snaplen < MAX_CAPTURED ? this.snaplen : MAX_CAPTURED;
+    let p = off;
+    while (p + PCAP_RECORD_HEADER <= end) {
+      const sub = u32(buf, p + 4, le);
+      const cap = u32(buf, p + 8, le);
+      const next = p + PCAP_RECORD_HEADER + cap;
+      if (sub >= subLimit || cap > capLimit || next > end) break;
+      ctx.deliver(buf, p + PCAP_RECORD_HEADER, cap, u32(buf, p + 12, le), u32(buf, p, le), nano ? sub : sub * 1000, linkType, fileOff + p - off);
+      p = next;
+    }
+    return p;
+  }
+
   private readFileHeader(buf: Uint8Array, off: number): void {
     const major = u16(buf, off + 4, this.le);
     if (major !== 2) {

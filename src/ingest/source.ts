@@ -87,7 +87,7 @@ export async function peekSource(src: ByteSource, n: number): Promise<{ head: Ui
   while (have < n) {
     const c = await src.read();
     if (!c) break;
-    const copy = Uint8Array.from(c);
+    const copy = new Uint8Array(c); // a copy (typed-array to typed-array); from() would go element by element
     parts.push(copy);
     have += copy.length;
   }
