@@ -22,7 +22,9 @@ export class Ipv4TextCache {
     const i = fmix32(a) & this.mask;
     const t = this.texts[i]!;
     if (t !== '' && this.keys[i] === a) return t;
-    const s = ipv4ToString(a);
+    // made flat once (a template literal of 13 or more characters is a rope): the output encoders
+    // read the text character by character, record after record
+    const s = Buffer.from(ipv4ToString(a), 'latin1').toString('latin1');
     this.keys[i] = a;
     this.texts[i] = s;
     return s;

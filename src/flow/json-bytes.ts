@@ -35,13 +35,6 @@ export class JsonLineEncoder {
   }
 
   write(r: FlowRecord): void {
-    if (!(plain(r.src) && plain(r.dst) && plain(r.exporter))) {
-      const line = Buffer.from(`${flowToJson(r)}\n`, 'utf8');
-      if (this.pos + line.length > this.buf.length) this.growFor(line.length);
-      this.buf.set(line, this.pos);
-      this.pos += line.length;
-      return;
-    }
     // plain strings are one octet per character
     const need = LINE_FIXED + r.src.length + r.dst.length + r.outcome.length + r.exporter.length;
     if (this.pos + need > this.buf.length) this.growFor(need);
@@ -50,8 +43,10 @@ export class JsonLineEncoder {
     p = key(b, v, p, K_START); p = num(b, p, r.start);
     p = key(b, v, p, K_END); p = num(b, p, r.end);
     p = key(b, v, p, K_PROTO); p = int(b, p, r.proto);
-    p = key(b, v, p, K_SRC); p = ascii(b, p, r.src);
-    p = key(b, v, p, K_DST); p = ascii(b, p, r.dst);
+    p = key(b, v, p, K_SRC); p = plain(b, p, r.src);
+    if (p < 0) return this.writeEscaped(r);
+    p = key(b, v, p, K_DST); p = plain(b, p, r.dst);
+    if (p < 0) return this.writeEscaped(r);
     p = key(b, v, p, K_SPORT); p = int(b, p, r.sport);
     p = key(b, v, p, K_DPORT); p = int(b, p, r.dport);
     p = key(b, v, p, K_PKTS); p = num(b, p, r.pkts);
@@ -61,12 +56,21 @@ export class JsonLineEncoder {
     p = key(b, v, p, K_FLAGS); p = int(b, p, r.flags);
     p = key(b, v, p, K_RFLAGS); p = int(b, p, r.rflags);
     p = key(b, v, p, K_OUTCOME); p = ascii(b, p, r.outcome);
-    p = key(b, v, p, K_EXPORTER); p = ascii(b, p, r.exporter);
+    p = key(b, v, p, K_EXPORTER); p = plain(b, p, r.exporter);
+    if (p < 0) return this.writeEscaped(r);
     b[p++] = 0x22;
     if (r.vlan !== undefined) { p = key(b, v, p, K_VLAN); p = int(b, p, r.vlan); }
     b[p++] = 0x7d;
     b[p++] = 0x0a;
     this.pos = p;
+  }
+
+  /** A line with a string that needs escaping (never from captures): through `flowToJson`'s rules. */
+  private writeEscaped(r: FlowRecord): void {
+    const line = Buffer.from(`${flowToJson(r)}\n`, 'utf8');
+    if (this.pos + line.length > this.buf.length) this.growFor(line.length);
+    this.buf.set(line, this.pos);
+    this.pos += line.length;
   }
 
   private growFor(n: number): void {
@@ -108,19 +112,23 @@ function ascii(b: Uint8Array, p: number, s: string): number {
 
 /** Shortest round-trip digits, as `num` in format.ts: integers and up to three decimals directly. */
 function num(b: Uint8Array, p: number, x: number): number {
+  // counters: small non-negative integers (-0 prints as 0 on both paths)
+  if (x >= 0 && x <= 999_999_999 && (x | 0) === x) return int(b, p, x);
   if (x >= 0 && x < 9e12) {
     const m = Math.round(x * 1000);
     if (m / 1000 === x) {
       const whole = Math.floor(m / 1000);
-      let frac = m - whole * 1000;
+      let frac = (m - whole * 1000) | 0;
       p = int(b, p, whole);
       if (frac === 0) return p;
       b[p++] = 0x2e; // '.'
-      b[p++] = 0x30 + Math.floor(frac / 100);
-      frac %= 100;
+      const d1 = (frac / 100) | 0;
+      b[p++] = 0x30 + d1;
+      frac -= d1 * 100;
       if (frac === 0) return p;
-      b[p++] = 0x30 + Math.floor(frac / 10);
-      frac %= 10;
+      const d2 = (frac / 10) | 0;
+      b[p++] = 0x30 + d2;
+      frac -= d2 * 10;
       if (frac === 0) return p;
       b[p++] = 0x30 + frac;
       return p;
@@ -129,16 +137,20 @@ function num(b: Uint8Array, p: number, x: number): number {
   return ascii(b, p, x - x === 0 ? `${x}` : 'null');
 }
 
-/** A non-negative integer below 2^53: small ones on the integer path, big ones by halves. */
+/**
+ * A non-negative integer below 2^53: below 10^9 on 32-bit integer arithmetic (divisions by 10 become
+ * multiplications), bigger ones as a high part and nine zero-padded digits.
+ */
 function int(b: Uint8Array, p: number, n: number): number {
   if (n > 999_999_999) {
     const hi = Math.floor(n / 1e9);
     p = int(b, p, hi);
-    return pad9(b, p, n - hi * 1e9);
+    return pad9(b, p, (n - hi * 1e9) | 0);
   }
-  if (n < 10) { b[p] = 0x30 + n; return p + 1; }
-  const len = n < 100 ? 2 : n < 1000 ? 3 : n < 10000 ? 4 : n < 100000 ? 5 : n < 1000000 ? 6 : n < 10000000 ? 7 : n < 100000000 ? 8 : 9;
-  for (let i = p + len - 1, t = n; i >= p; i--) {
+  let t = n | 0;
+  if (t < 10) { b[p] = 0x30 + t; return p + 1; }
+  const len = t < 100 ? 2 : t < 1000 ? 3 : t < 10000 ? 4 : t < 100000 ? 5 : t < 1000000 ? 6 : t < 10000000 ? 7 : t < 100000000 ? 8 : 9;
+  for (let i = p + len - 1; i >= p; i--) {
     const q = (t / 10) | 0;
     b[i] = 0x30 + t - q * 10;
     t = q;
@@ -148,7 +160,8 @@ function int(b: Uint8Array, p: number, n: number): number {
 
 /** Exactly nine digits, zero-padded (the low part of a big integer). */
 function pad9(b: Uint8Array, p: number, n: number): number {
-  for (let i = p + 8, t = n; i >= p; i--) {
+  let t = n | 0;
+  for (let i = p + 8; i >= p; i--) {
     const q = (t / 10) | 0;
     b[i] = 0x30 + t - q * 10;
     t = q;
@@ -156,11 +169,16 @@ function pad9(b: Uint8Array, p: number, n: number): number {
   return p + 9;
 }
 
-/** Printable ASCII without `"` or `\`: written as is inside JSON quotes (RFC 8259 section 7). */
-function plain(s: string): boolean {
+/**
+ * Writes `s` when it is printable ASCII without `"` or `\\` (as is inside JSON quotes, RFC 8259
+ * section 7) and returns the position after it; -1 as soon as a character needs more (nothing the
+ * caller keeps was written: the line is redone from its start).
+ */
+function plain(b: Uint8Array, p: number, s: string): number {
   for (let i = 0; i < s.length; i++) {
     const c = s.charCodeAt(i);
-    if (c < 0x20 || c > 0x7e || c === 0x22 || c === 0x5c) return false;
+    if (c < 0x20 || c > 0x7e || c === 0x22 || c === 0x5c) return -1;
+    b[p + i] = c;
   }
-  return true;
+  return p + s.length;
 }

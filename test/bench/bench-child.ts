@@ -1,13 +1,13 @@
 /**
  * One measured run in a fresh process, so peak RSS is the run's own: `flows FILE` (capture ingest:
  * reader, decoder, flow table, every record encoded as a JSON line as `tidewatch flows` does, the
- * chunks dropped) or `pcap-parser
- * FILE` (the npm pcap-parser's packet loop, counting packets only). Prints one JSON line.
+ * chunks dropped) or `pcap-parser FILE` (the npm pcap-parser's packet loop, counting packets only). Prints one JSON line.
  */
 import { once } from 'node:events';
 import type { EventEmitter } from 'node:events';
 import { createRequire } from 'node:module';
-import { JsonLineEncoder } from '../../src/flow/json-bytes.js';
+import { Writable } from 'node:stream';
+import { FlowRecordWriter } from '../../src/flow/record-writer.js';
 import type { FlowRecord } from '../../src/flow/record.js';
 import { ingestInput } from '../../src/ingest/index.js';
 import { DEFAULT_INGEST } from '../../src/ingest/types.js';
@@ -24,16 +24,15 @@ function cpuSince(c: NodeJS.CpuUsage): number {
 }
 
 async function flows(path: string) {
-  // what `tidewatch flows` does per record, with the chunks dropped instead of written
+  // what `tidewatch flows` does per record (src/cli/flows.ts: FlowRecordWriter, JSON lines), with the
+  // chunks dropped instead of written
   let chars = 0;
-  const enc = new JsonLineEncoder();
-  const sink = (r: FlowRecord) => {
-    enc.write(r);
-    if (enc.length >= 1 << 20) chars += enc.take().length;
-  };
+  const out = new Writable({ write(chunk: Buffer, _enc, done) { chars += chunk.length; done(); } });
+  const writer = new FlowRecordWriter(out, 'jsonl');
+  const sink = (r: FlowRecord) => writer.write(r);
   const t = process.hrtime.bigint(), c = process.cpuUsage();
   const s = await ingestInput(path, sink, DEFAULT_INGEST);
-  chars += enc.take().length;
+  await writer.drained();
   const ms = Number(process.hrtime.bigint() - t) / 1e6;
   const cpuMs = cpuSince(c);
   return { packets: s.packets, flows: s.flows, distinctFlows: s.counters.distinctFlows, outputChars: chars, problems: s.problemCounts, ms, cpuMs };
