@@ -79,7 +79,7 @@ export class FlowTable {
   /** Ids below this have been used at least once. */
   private highWater = 0;
 
-  // index: flow id + 1 per slot, 0 = empty
+  // index: two words per slot, the key hash and the flow id + 1 (0 = empty)
   private index = new Int32Array(0);
   private mask = 0;
 
@@ -317,11 +317,14 @@ export class FlowTable {
     const key = fam | (proto << 8);
     const fwd = ((sport << 16) | dport) >>> 0;
     const rev = ((dport << 16) | sport) >>> 0;
+    const tag = h | 0;
     for (let i = h & mask; ; i = (i + 1) & mask) {
-      const e = index[i]!;
+      const e = index[2 * i + 1]!;
       if (e === 0) return -1;
+      // the hash beside the id spares a visit to every other flow's block on the probe path
+      if (index[2 * i] !== tag) continue;
       const f = e - 1, o = f * W;
-      if (u[o + W_HASH] !== h || (u[o + W_META]! & 0xffff) !== key) continue;
+      if ((u[o + W_META]! & 0xffff) !== key) continue;
       const ports = u[o + W_PORTS], a0 = u[o + W_A], b0 = u[o + W_B];
       if (ports === fwd && a0 === s[0] && b0 === d[0] && (fam === 4 || this.sameV6(f, s, d))) { this.dir = 0; return f; }
       if (ports === rev && a0 === d[0] && b0 === s[0] && (fam === 4 || this.sameV6(f, d, s))) { this.dir = 1; return f; }
@@ -442,26 +445,29 @@ export class FlowTable {
   // --- index ---
 
   private insertIndex(f: number, h: number): void {
-    let i = h & this.mask;
-    while (this.index[i] !== 0) i = (i + 1) & this.mask;
-    this.index[i] = f + 1;
+    const index = this.index, mask = this.mask;
+    let i = h & mask;
+    while (index[2 * i + 1] !== 0) i = (i + 1) & mask;
+    index[2 * i] = h | 0;
+    index[2 * i + 1] = f + 1;
   }
 
   /** Linear-probing delete by backward shift: no tombstones, probe chains stay short. */
   private deleteIndex(f: number): void {
-    const index = this.index, mask = this.mask, u = this.u;
-    let i = u[f * W + W_HASH]! & mask;
-    while (index[i] !== f + 1) i = (i + 1) & mask;
-    for (let j = (i + 1) & mask; index[j] !== 0; j = (j + 1) & mask) {
-      const home = u[(index[j]! - 1) * W + W_HASH]! & mask;
+    const index = this.index, mask = this.mask;
+    let i = this.u[f * W + W_HASH]! & mask;
+    while (index[2 * i + 1] !== f + 1) i = (i + 1) & mask;
+    for (let j = (i + 1) & mask; index[2 * j + 1] !== 0; j = (j + 1) & mask) {
+      const home = index[2 * j]! & mask;
       // the entry at j may move into the hole at i unless its home lies cyclically in (i, j]
       const stays = i <= j ? home > i && home <= j : home > i || home <= j;
       if (!stays) {
-        index[i] = index[j]!;
+        index[2 * i] = index[2 * j]!;
+        index[2 * i + 1] = index[2 * j + 1]!;
         i = j;
       }
     }
-    index[i] = 0;
+    index[2 * i + 1] = 0;
   }
 
   private grow(cap: number): void {
@@ -482,7 +488,7 @@ export class FlowTable {
     this.cap = cap;
     let slots = 1;
     while (slots < cap * 2) slots <<= 1;
-    this.index = new Int32Array(slots);
+    this.index = new Int32Array(slots * 2);
     this.mask = slots - 1;
     for (let f = 0; f < this.highWater; f++) if (u[f * W + W_META] !== 0) this.insertIndex(f, u[f * W + W_HASH]!);
   }
