@@ -101,12 +101,13 @@ try {
   const base = rows.find(([n]) => n === BASELINE)?.[1];
   const pps = (m: Measure) => m.packets / (m.ms / 1000);
   const cpuPps = (m: Measure) => m.packets / (m.cpuMs / 1000);
-  const head = ['bench', 'packets', 'seconds', 'M packets/s', 'MB/s', 'M packets/CPU s', 'flow records', 'peak RSS MB', 'vs pcap-parser'];
+  const head = ['bench', 'packets', 'seconds', 'M packets/s', 'MB/s', 'M packets/CPU s', 'flow records', 'peak RSS MB', 'vs pcap-parser', 'CPU vs pcap-parser'];
   const table = rows.map(([name, m]) => [
     name, String(m.packets), (m.ms / 1000).toFixed(2), (pps(m) / 1e6).toFixed(2),
     inputOf.get(name) === 'capture' ? (size / 1e6 / (m.ms / 1000)).toFixed(0) : '-',
     (cpuPps(m) / 1e6).toFixed(2), m.flows === undefined ? '-' : String(m.flows), (m.maxRssKB / 1024).toFixed(0),
     base && inputOf.get(name) === 'capture' ? `${(pps(m) / pps(base)).toFixed(1)}x` : '-',
+    base && inputOf.get(name) === 'capture' ? `${(cpuPps(m) / cpuPps(base)).toFixed(1)}x` : '-',
   ]);
   const widths = head.map((h, i) => Math.max(h.length, ...table.map((r) => r[i]!.length)));
   const line = (r: string[]) => r.map((c, i) => (i === 0 ? c.padEnd(widths[i]!) : c.padStart(widths[i]!))).join('  ');
@@ -115,6 +116,7 @@ try {
     + '         replay >= 2 M packets/s, >= 3x pcap-parser, peak RSS <= 600 MB; 1 M hosts peak RSS <= 1.5 GB;\n'
     + '         IPFIX decode >= 2 M records/s, peak RSS <= 300 MB; watch over loopback UDP >= 200 k records/s\n');
   process.stdout.write('seconds = wall time (in the child, startup excluded, except for the whole-process CLI row); CPU s = user + system time of the child;\n'
+    + 'vs pcap-parser compares packets per wall second, CPU vs pcap-parser packets per CPU second (both children read the same file);\n'
     + `the machine is shared, so compare rows of one run rather than runs${repeat > 1 ? ` (fastest of ${repeat} runs each)` : ''}.\n`);
 } finally {
   if (!args.includes('--keep')) rmSync(dir, { recursive: true, force: true });
