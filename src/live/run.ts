@@ -196,7 +196,7 @@ export class LiveRun {
     const r = o.reloadRules();
     if ('errors' in r) {
       this.rules.refused++;
-      o.log(`tidewatch: SIGHUP: rule set refused (${r.errors.length} errors), keeping the rules in force:`);
+      o.log(`tidewatch: SIGHUP: rule set refused (${r.errors.length} error${r.errors.length === 1 ? '' : 's'}), keeping the rules in force:`);
       for (const e of r.errors) o.log(`  ${e}`);
       return;
     }
