@@ -14,11 +14,15 @@ export type FromCollector =
   | { type: 'closed' };
 export type ToCollector = { type: 'ack' } | { type: 'close' };
 
-/** Records per batch, how often a partial batch goes anyway, batches waiting before records are dropped (ours). */
+/** Records per batch, and how often a partial batch goes anyway (ours). */
 const BATCH_RECORDS = 1024;
 const FLUSH_MS = 50;
-/** About 4 M records: some seconds of a busy exporter while the main thread closes windows. */
-const MAX_BATCHES_IN_FLIGHT = 4096;
+/**
+ * Batches held for the main thread before records are dropped: about 256 k records, a second or more
+ * of a busy exporter, enough to ride out window closes; a sensor that is slower than its input for
+ * longer drops (counted) rather than grow without bound.
+ */
+const MAX_BATCHES_WAITING = 256;
 
 export interface CollectorThreadHandle extends CollectorHandle {
   /** Records the collector thread gave up because the main thread was too far behind. */
@@ -38,7 +42,7 @@ const CLOSE_TIMEOUT_MS = 5000;
  */
 export function startCollectorThread(listen: CollectorListen, sink: FlowSink, onProblem?: (p: InputProblem) => void): Promise<CollectorThreadHandle> {
   const worker = new Worker(new URL('./collector-worker.js', import.meta.url), {
-    workerData: { listen, batchRecords: BATCH_RECORDS, flushMs: FLUSH_MS, maxBatchesInFlight: MAX_BATCHES_IN_FLIGHT },
+    workerData: { listen, batchRecords: BATCH_RECORDS, flushMs: FLUSH_MS, maxBatchesWaiting: MAX_BATCHES_WAITING },
   });
   // the thread sends its first counters before it says it is listening
   let stats: CollectorStats | null = null;

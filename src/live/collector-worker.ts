@@ -7,27 +7,39 @@ import { parentPort, workerData } from 'node:worker_threads';
 import type { FlowRecord } from '../flow/record.js';
 import { startCollector, type CollectorListen, type CollectorStats } from '../flowlog/collector.js';
 import type { InputProblem } from '../util/problem.js';
-import { BatchWriter } from './record-batch.js';
+import { BatchWriter, type RecordBatch } from './record-batch.js';
 import type { FromCollector, ToCollector } from './collector-thread.js';
 
 const port = parentPort!;
-const { listen, batchRecords, flushMs, maxBatchesInFlight } = workerData as {
-  listen: CollectorListen; batchRecords: number; flushMs: number; maxBatchesInFlight: number;
+const { listen, batchRecords, flushMs, maxBatchesWaiting } = workerData as {
+  listen: CollectorListen; batchRecords: number; flushMs: number; maxBatchesWaiting: number;
 };
 const post = (m: FromCollector, transfer?: ArrayBuffer[]) => port.postMessage(m, transfer);
 
 const writer = new BatchWriter(batchRecords);
-let inFlight = 0;
+/**
+ * Batches wait here until the main thread asks for more: it holds at most CREDITS at once, so each
+ * arrives in its own turn of the main event loop and timers and signals run in between.
+ */
+const waiting: RecordBatch[] = [];
+const CREDITS = 2;
+let credits = CREDITS;
 let backlogDropped = 0;
+const pump = () => {
+  while (credits > 0 && waiting.length > 0) {
+    const b = waiting.shift()!;
+    credits--;
+    post({ type: 'records', batch: b }, [b.numbers.buffer as ArrayBuffer]);
+  }
+};
 const flush = () => {
   if (writer.count === 0) return;
-  const b = writer.take();
-  inFlight++;
-  post({ type: 'records', batch: b }, [b.numbers.buffer as ArrayBuffer]);
+  waiting.push(writer.take());
+  pump();
 };
 const sink = (r: FlowRecord) => {
   // the main thread is this far behind: keep memory bounded and count what is given up
-  if (inFlight >= maxBatchesInFlight) { backlogDropped++; return; }
+  if (waiting.length >= maxBatchesWaiting) { backlogDropped++; return; }
   writer.add(r);
   if (writer.full) flush();
 };
@@ -49,10 +61,13 @@ try {
     post(counters(handle.stats()));
   }, flushMs);
   port.on('message', (m: ToCollector) => {
-    if (m.type === 'ack') { inFlight--; return; }
+    if (m.type === 'ack') { credits++; pump(); return; }
     clearInterval(timer);
     void handle.close().then(() => {
+      // closing: everything still held goes now, ahead of the last counters (messages keep their order)
       flush();
+      credits = Infinity;
+      pump();
       post(counters(handle.stats()));
       post({ type: 'closed' });
       port.close();

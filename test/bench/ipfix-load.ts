@@ -19,7 +19,7 @@ import { encodeIpfix, RECORD_V4_BYTES, START_MS_AT } from '../live/ipfix-encode.
 
 const CLI = fileURLToPath(new URL('../../src/cli/main.js', import.meta.url));
 /** Records per second of each step, in order. */
-const RATES = [50_000, 100_000, 150_000, 200_000, 250_000, 300_000, 400_000, 500_000];
+const RATES = [25_000, 50_000, 100_000, 150_000, 200_000, 250_000, 300_000, 400_000, 500_000];
 const STEP_MS = 4000;
 /** After a step: wait until the collector's count holds still (the sensor works off its backlog). */
 const SETTLE_MIN_MS = 1000;
