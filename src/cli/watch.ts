@@ -63,7 +63,7 @@ export function register(program: Command): void {
     state?.attach(sensor);
     const log = (line: string) => { process.stderr.write(`${line}\n`); };
     const run = new LiveRun({
-      sensor, output, state, windowMs: parsed.sensor.windowMs, idleAfterMs, statusEveryMs, statusJson: raw.statusJson,
+      sensor, output, state, windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, idleAfterMs, statusEveryMs, statusJson: raw.statusJson,
       quiet: parsed.quiet, log,
       sources: { stdin: stdinArg === '-' ? process.stdin : undefined, follow: raw.follow, collector },
       reloadRules: () => loadRules(raw.rules ?? shippedRulesDir()),

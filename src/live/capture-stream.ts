@@ -16,6 +16,8 @@ export interface LiveCaptureOptions {
   onProblem?: (p: InputProblem) => void;
   /** Every packet's time (the live clock). */
   onPacketTime?: (ms: number) => void;
+  /** Flow-table cap (`--max-flows`); default DEFAULT_INGEST.maxFlows. */
+  maxFlows?: number;
 }
 
 /**
@@ -36,7 +38,7 @@ export class LiveCapture {
       windowMs: opts.windowMs,
       idleTimeoutMs: DEFAULT_INGEST.idleTimeoutMs,
       activeTimeoutMs: DEFAULT_INGEST.activeTimeoutMs,
-      maxFlows: DEFAULT_INGEST.maxFlows,
+      maxFlows: opts.maxFlows ?? DEFAULT_INGEST.maxFlows,
       exporter: opts.exporter,
     }, sink);
     this.table = table;

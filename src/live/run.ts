@@ -39,6 +39,8 @@ export interface LiveRunOptions {
   state: SensorState | null;
   sources: LiveSources;
   windowMs: number;
+  /** Capture flow-table cap (`--max-flows`). */
+  maxFlows?: number;
   /** Wall-clock quiet after which event time moves on by itself. */
   idleAfterMs: number;
   statusEveryMs: number;
@@ -131,7 +133,7 @@ export class LiveRun {
       }
       if (src.stdin) {
         const capture = new LiveCapture({
-          windowMs: o.windowMs, file: '-', exporter: 'stdin', onProblem: this.onProblem, onPacketTime: (ms) => this.clock.note(ms),
+          windowMs: o.windowMs, maxFlows: o.maxFlows, file: '-', exporter: 'stdin', onProblem: this.onProblem, onPacketTime: (ms) => this.clock.note(ms),
         }, this.sink);
         this.capture = capture;
         pump = pumpStream(src.stdin, capture);
