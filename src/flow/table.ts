@@ -1,6 +1,5 @@
 import { Fragment, type PacketView, type QuotedTuple } from '../decode/view.js';
-import { ipv6ToString } from '../util/addr.js';
-import { Ipv4TextCache } from './addr-text.js';
+import { Ipv4TextCache, Ipv6TextCache } from './addr-text.js';
 import { St, outcomeOf, tcpEnded, tcpStep } from './flow-state.js';
 import { flowHash } from './key-hash.js';
 import type { FlowRecord, FlowSink } from './record.js';
@@ -101,8 +100,8 @@ export class FlowTable {
   // scratch keys, so lookups allocate nothing
   private readonly keyS = new Uint32Array(4);
   private readonly keyD = new Uint32Array(4);
-  private readonly text6 = new Uint8Array(16);
   private readonly text4 = new Ipv4TextCache();
+  private readonly text6 = new Ipv6TextCache();
   private dir = 0;
 
   constructor(opts: FlowTableOptions, private readonly sink: FlowSink) {
@@ -434,12 +433,8 @@ export class FlowTable {
   private addrText(f: number, end: number, fam: number): string {
     const w0 = this.u[f * W + W_A + end]!;
     if (fam === 4) return this.text4.text(w0);
-    const t = this.text6, w = this.v6, q = f * 6 + 3 * end;
-    for (let i = 0; i < 4; i++) {
-      const x = i === 0 ? w0 : w[q + i - 1]!;
-      t[4 * i] = x >>> 24; t[4 * i + 1] = x >>> 16; t[4 * i + 2] = x >>> 8; t[4 * i + 3] = x;
-    }
-    return ipv6ToString(t);
+    const w = this.v6, q = f * 6 + 3 * end;
+    return this.text6.text(w0, w[q]!, w[q + 1]!, w[q + 2]!);
   }
 
   // --- index ---
