@@ -10,6 +10,9 @@ import { NetflowV9Decoder } from './netflow9.js';
 import { TemplateBudget, type ExportSession } from './session.js';
 
 /** Where to listen, each `HOST:PORT` (`[v6]:PORT`; a bare `PORT` or `:PORT` binds 127.0.0.1). */
+/** Requested socket receive buffer for UDP listeners, in octets. */
+export const UDP_RECEIVE_BUFFER = 4 << 20;
+
 export interface CollectorListen {
   ipfixUdp?: string;
   ipfixTcp?: string;
@@ -147,7 +150,9 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
 
   const udp = async (spec: string, format: Exporter['format']): Promise<AddressInfo> => {
     const { host, port } = parseListen(spec);
-    const sock = createSocket(isIPv6(host) ? 'udp6' : 'udp4');
+    // a large receive buffer rides out scheduling gaps (the default holds about 90 datagrams); the
+    // kernel caps it at net.core.rmem_max
+    const sock = createSocket({ type: isIPv6(host) ? 'udp6' : 'udp4', recvBufferSize: UDP_RECEIVE_BUFFER });
     sock.on('message', (msg: Buffer, r: RemoteInfo) => {
       if (msg.length > maxDatagram) { datagramsOverCap++; return; }
       const e = exporter(`${format} ${remoteName(r.address, r.port)}`, format, 'udp');
