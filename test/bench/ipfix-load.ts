@@ -8,6 +8,7 @@
  * alone after a build: `node dist/test/bench/ipfix-load.js`.
  */
 import { spawn } from 'node:child_process';
+import { UDP_RECEIVE_BUFFER } from '../../src/flowlog/collector.js';
 import { createSocket } from 'node:dgram';
 import { existsSync, mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -63,9 +64,9 @@ function cpuMs(pid: number): number {
 }
 
 /** The kernel's default UDP receive buffer, which the collector's socket gets (Linux). */
-function rmemDefault(): string {
+function rmemMax(): string {
   try {
-    return readFileSync('/proc/sys/net/core/rmem_default', 'utf8').trim();
+    return readFileSync('/proc/sys/net/core/rmem_max', 'utf8').trim();
   } catch {
     return 'unknown';
   }
@@ -161,7 +162,7 @@ export async function benchIpfixLoad(): Promise<{ name: string; rate: number; un
     return {
       name: 'ipfix-load', rate: best ? best.rate : 0, unit: 'records/s', rssMB: Math.max(...steps.map((s) => s.rssMB)),
       receiverCpuMsPerS: best ? Math.round(best.cpuShare * 1000) : NaN,
-      notes: `watch with the IPFIX listener (collector on its own thread) over loopback UDP (receive buffer: the socket default, ${rmemDefault()} octets), `
+      notes: `watch with the IPFIX listener (collector on its own thread) over loopback UDP (receive buffer requested ${UDP_RECEIVE_BUFFER} octets, kernel rmem_max ${rmemMax()}), `
         + `${RECORD_V4_BYTES}-octet biflow records in 1400-octet datagrams, `
         + `${INSIDE_HOSTS} inside hosts, 10 s windows; steps of ${STEP_MS / 1000} s: ${table}; `
         + `all runs: ${totalSent} sent, ${last.sources.collector!.records} received, ${last.drops.sequence_lost} lost by sequence numbers, `
