@@ -111,6 +111,10 @@ export class FlowTable {
     this.maxFlows = Math.max(1, Math.floor(opts.maxFlows));
     this.exporter = opts.exporter;
     this.idleScanMs = Math.max(1000, this.idleMs / 4);
+    // `bytes` passes 2^30 within seconds of traffic: made a double field from the start, since a field
+    // turning from small integer to double deoptimises the code that updates it
+    this.stats.bytes = 0.5;
+    this.stats.bytes = 0;
     this.grow(Math.min(INITIAL_CAPACITY, this.maxFlows));
   }
 
@@ -213,21 +217,24 @@ export class FlowTable {
   }
 
   /** Emits every pending update of a window that ended at least the allowed lateness ago. */
+  // The scans below set their next due time before the loop: the loop runs as on-stack-replaced code,
+  // and code after it, compiled before it ever ran, deoptimised on every scan.
+
   private sweepWindows(ts: number): void {
     const boundary = this.windowStart(ts - ALLOWED_LATENESS_MS);
-    const u = this.u, dd = this.d;
-    for (let f = 0; f < this.highWater; f++) {
+    this.nextSweepAt = boundary + this.windowMs + ALLOWED_LATENESS_MS;
+    const u = this.u, dd = this.d, end = this.highWater;
+    for (let f = 0; f < end; f++) {
       if (u[f * W + W_META] !== 0 && this.pending(f) && this.windowStart(dd[f * D + D_FIRST]!) + this.windowMs <= boundary) this.emit(f);
     }
-    this.nextSweepAt = boundary + this.windowMs + ALLOWED_LATENESS_MS;
   }
 
   private expireIdle(ts: number): void {
-    const u = this.u, dd = this.d;
-    for (let f = 0; f < this.highWater; f++) {
-      if (u[f * W + W_META] !== 0 && ts - dd[f * D + D_LAST]! >= this.idleMs) this.remove(f);
-    }
     this.nextIdleScanAt = ts + this.idleScanMs;
+    const u = this.u, dd = this.d, end = this.highWater, idle = this.idleMs;
+    for (let f = 0; f < end; f++) {
+      if (u[f * W + W_META] !== 0 && ts - dd[f * D + D_LAST]! >= idle) this.remove(f);
+    }
   }
 
   private pending(f: number): boolean {
