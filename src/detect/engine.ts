@@ -64,6 +64,7 @@ export class DetectorEngine {
   private readonly values = new Float64Array(FEATURE_COUNT);
   private readonly anomalous = new Uint8Array(FEATURE_COUNT);
   private readonly idleEvictMs: number;
+  private ctx: HostContext | null = null;
   /** End of the last window with a finding, per (kind, host, role). */
   private readonly lastFinding = new Map<string, number>();
   /**
@@ -101,11 +102,15 @@ export class DetectorEngine {
       this.anomalous.fill(0);
       const host = name(acc.hostId);
       const rules = this.opts.rules;
-      const ctx: HostContext = {
-        host, hostId: acc.hostId, inside: this.agg.isInsideId(acc.hostId),
-        windowStart: w.start, windowEnd: w.end, acc, values, model,
-        thresholds: this.thresholds, floors: rules ? rules.floorsFor(host) : this.floors, runWindows: this.runWindows, name,
+      // one context object, refilled per host-window: detectors read it during the call only
+      const ctx = this.ctx ??= {
+        host, hostId: acc.hostId, inside: false, windowStart: w.start, windowEnd: w.end, acc, values, model,
+        thresholds: this.thresholds, floors: this.floors, runWindows: this.runWindows, name,
       };
+      ctx.host = host; ctx.hostId = acc.hostId; ctx.inside = this.agg.isInsideId(acc.hostId);
+      ctx.windowStart = w.start; ctx.windowEnd = w.end; ctx.acc = acc; ctx.values = values; ctx.model = model;
+      ctx.thresholds = this.thresholds; ctx.floors = rules ? rules.floorsFor(host) : this.floors;
+      ctx.runWindows = this.runWindows; ctx.name = name;
       const first = out.length;
       // detectors run in training too: their own state (peak envelopes, TRW, CUSUM) learns as well
       for (const d of this.detectors) {
@@ -121,7 +126,7 @@ export class DetectorEngine {
           if (fi !== undefined) this.anomalous[fi] = 1;
         }
       }
-      this.observer?.(ctx, out.slice(first));
+      if (this.observer) this.observer(ctx, out.slice(first));
       this.baselines.learn(acc.hostId, values, w.start, this.anomalous);
       if (model.activeWindows === 0) model.firstActiveStart = w.start;
       model.activeWindows++;

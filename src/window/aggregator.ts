@@ -5,6 +5,9 @@ import { AddressTable, type AddressTableSnapshot } from './intern.js';
 import { PairHistory, type PairHistorySnapshot } from './pair-history.js';
 import { HostAcc } from './host-acc.js';
 
+/** Released host accumulators kept for reuse. */
+const ACC_POOL_CAP = 65_536;
+
 export interface WindowOptions {
   windowMs: number;
   /** Watermark = latest event time seen minus this (5 s for captures, the active timeout for exports). */
@@ -209,7 +212,10 @@ export class WindowAggregator {
       if (bucket) for (const h of bucket.values()) if (h.sketchCapped) this.stats.sketchCapped++;
       const hosts = bucket ? [...bucket.values()] : [];
       this.onClose({ start: w * this.W, end: (w + 1) * this.W, hosts });
-      for (const h of hosts) h.release();
+      for (const h of hosts) {
+        h.release();
+        if (this.accPool.length < ACC_POOL_CAP) this.accPool.push(h);
+      }
       this.pruneRecent(w * this.W);
     }
   }
@@ -259,9 +265,15 @@ export class WindowAggregator {
 
   private acc(b: Map<number, HostAcc>, id: number): HostAcc {
     let a = b.get(id);
-    if (!a) { a = new HostAcc(id); b.set(id, a); }
+    if (!a) {
+      a = this.accPool.pop()?.reuse(id) ?? new HostAcc(id);
+      b.set(id, a);
+    }
     return a;
   }
+
+  /** Accumulators of closed windows, reused (a window of a million hosts made a million objects). */
+  private readonly accPool: HostAcc[] = [];
 
   private markInside(id: number, addr: string): boolean {
     const s = this.insideSeen[id]!;

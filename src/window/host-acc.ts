@@ -75,7 +75,24 @@ export class HostAcc {
   failPorts: TopK | null = null;
   samples: FlowRecord[] = [];
 
-  constructor(readonly hostId: number) {}
+  constructor(public hostId: number) {}
+
+  /** Makes a released accumulator new again for another host (the window stage pools them). */
+  reuse(hostId: number): this {
+    this.hostId = hostId;
+    this.flowsOut = 0; this.pktsOut = 0; this.bytesOut = 0;
+    this.flowsIn = 0; this.pktsIn = 0; this.bytesIn = 0;
+    this.nontcpOut = 0; this.nontcpIn = 0;
+    this.attempts = 0; this.rejected = 0; this.unanswered = 0; this.synOnlyOut = 0;
+    this.failedIn = 0; this.synOnlyIn = 0; this.icmpUnreachIn = 0;
+    this.newPeers = 0; this.newPeerBytes = 0;
+    this.pairOk = 0; this.pairFail = 0;
+    this.newPeerTop = -1; this.newPeerTopBytes = 0;
+    this.oPeer = -1; this.oDport = -1; this.oSport = -1; this.oCount = 0;
+    this.iPeer = -1; this.iPort = -1; this.iCount = 0;
+    this.samples.length = 0;
+    return this;
+  }
 
   /**
    * The host initiated `r` to peer `peerId`; `share` of its packets and octets fall in this window
@@ -195,6 +212,9 @@ export class HostAcc {
   }
 
   private sample(r: FlowRecord): void {
+    // a host's first flow of the window is not kept: most hosts make one flow and never alert, and
+    // holding every record until its window closes would age millions of them into the old heap
+    if (this.flowsOut + this.flowsIn < 2) return;
     if (this.samples.length < SAMPLE_FLOWS) { this.samples.push(r); return; }
     // keep the largest flows beyond the first few: replace the smallest sample
     let min = 0;
