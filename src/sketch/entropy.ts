@@ -109,6 +109,31 @@ export class EntropyCounter {
     return 0;
   }
 
+  /** Calls fn for every stored key with its count (overflow keys are not stored). */
+  forEach(fn: (key: number, count: number) => void): void {
+    for (let i = 0; i < this.stored; i++) {
+      const slot = this.used[i]!;
+      fn(this.keys[slot]!, this.counts[slot]!);
+    }
+  }
+
+  /** The k stored keys with the highest counts, highest first (ties by key). O(distinct · k). */
+  top(k: number): { key: number; count: number }[] {
+    const best: { key: number; count: number }[] = [];
+    this.forEach((key, count) => {
+      if (best.length === k && count <= best[k - 1]!.count) return;
+      let i = best.length < k ? best.length : k - 1;
+      if (best.length < k) best.push({ key, count });
+      else best[i] = { key, count };
+      while (i > 0 && (best[i - 1]!.count < count || (best[i - 1]!.count === count && best[i - 1]!.key > key))) {
+        best[i] = best[i - 1]!;
+        best[i - 1] = { key, count };
+        i--;
+      }
+    });
+    return best;
+  }
+
   /** Empties the histogram in O(distinct), keeping the table for reuse. */
   reset(): void {
     for (let i = 0; i < this.stored; i++) this.counts[this.used[i]!] = 0;

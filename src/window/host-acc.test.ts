@@ -56,3 +56,17 @@ describe('HostAcc', () => {
     expect(v[F.new_peers]).toBe(3);
   });
 });
+
+describe('HostAcc past its exact bounds', () => {
+  it('continues distinct counts in a HyperLogLog within 3 standard errors (Flajolet et al. 2007: 1.04/sqrt(m), p = 12)', () => {
+    const a = new HostAcc(0);
+    const n = 20_000;
+    for (let i = 0; i < n; i++) a.asInitiator(rec(i % 250, 1 + (i % 9000), 1000 + (i % 7)), 10_000 + i, false);
+    const v = a.values(new Float64Array(FEATURE_COUNT));
+    const se = 1.04 / Math.sqrt(4096);
+    expect(Math.abs(v[F.distinct_peers]! - n) / n).toBeLessThan(3 * se);
+    expect(Math.abs(v[F.distinct_dst_ports]! - 9000) / 9000).toBeLessThan(3 * se);
+    expect(Math.abs(v[F.distinct_peer_ports]! - n) / n).toBeLessThan(3 * se);
+    expect(a.sketchCapped).toBe(true);
+  });
+});

@@ -4,41 +4,58 @@ import { TopK, type TopEntry } from '../sketch/topk.js';
 import type { FlowRecord } from '../flow/record.js';
 import { F, FEATURE_COUNT } from './features.js';
 
-/** Bound on exact (peer, port) pairs per host-window; past it counts continue in `pairCount`. */
+/** Bound on exact (peer, port) pairs per host-window; past it counts continue in a HyperLogLog. */
 export const PAIR_SET_CAP = 8192;
 const SAMPLE_FLOWS = 5;
 /** HyperLogLog precision of per-window distinct counts: 1.6 % standard error, exact up to 256. */
 const HLL_P = 12;
 
+/**
+ * A distinct count that is exact while its histogram holds every key and continues in a HyperLogLog
+ * once the histogram is full (seeded with the keys it held): most host-windows never need the sketch.
+ */
+function distinctOf(h: EntropyCounter, hll: HyperLogLog | null): number {
+  return hll ? hll.count() : h.distinct;
+}
+
+function spill(h: EntropyCounter): HyperLogLog {
+  const hll = new HyperLogLog(HLL_P);
+  h.forEach((key) => hll.add(key));
+  return hll;
+}
+
 /** The sets and sketches of one role, created only once a host shows a second distinct key. */
 class InitiatorSets {
-  peers = new HyperLogLog(HLL_P);
-  dports = new HyperLogLog(HLL_P);
   pairSet = new Set<number>();
-  pairCount = new HyperLogLog(HLL_P);
+  /** Exact pair count is pairSet.size until the set is full; then this sketch counts. */
+  pairHll: HyperLogLog | null = null;
   portsPerPeer = new TopK(64);
   peersPerPort = new TopK(64);
   entDstPorts = new EntropyCounter();
   entDstAddrs = new EntropyCounter();
   entSrcPorts = new EntropyCounter();
+  peersHll: HyperLogLog | null = null;
+  dportsHll: HyperLogLog | null = null;
   reset(): void {
-    this.peers.reset(); this.dports.reset(); this.pairSet.clear(); this.pairCount.reset();
+    this.pairSet.clear(); this.pairHll = null; this.peersHll = null; this.dportsHll = null;
     this.portsPerPeer.reset(); this.peersPerPort.reset();
     this.entDstPorts.reset(); this.entDstAddrs.reset(); this.entSrcPorts.reset();
   }
 }
 
 class ResponderSets {
-  sources = new HyperLogLog(HLL_P);
   entSrcAddrs = new EntropyCounter();
+  /** Local ports the host was reached on, for evidence. */
+  localPorts = new EntropyCounter();
+  sourcesHll: HyperLogLog | null = null;
   reset(): void {
-    this.sources.reset(); this.entSrcAddrs.reset();
+    this.entSrcAddrs.reset(); this.localPorts.reset(); this.sourcesHll = null;
   }
 }
 
 /**
- * Sets and top-k lists of closed windows, reused by the next windows: typed-array allocation was the
- * window stage's largest cost. Bounded so a burst of busy hosts does not pin memory.
+ * Sets of closed windows, reused by the next windows: typed-array allocation was the window stage's
+ * largest cost. Bounded so a burst of busy hosts does not pin memory.
  */
 const POOL_CAP = 4096;
 const initiatorPool: InitiatorSets[] = [];
@@ -68,9 +85,6 @@ export class HostAcc {
   private iPeer = -1; private iPort = -1; private iCount = 0;
   private out: InitiatorSets | null = null;
   private inn: ResponderSets | null = null;
-  /** Evidence lists over both roles, created with the first set of either role. */
-  private evPeers: TopK | null = null;
-  private evPorts: TopK | null = null;
   /** Destination ports of failed attempts (scan evidence). */
   failPorts: TopK | null = null;
   samples: FlowRecord[] = [];
@@ -155,59 +169,48 @@ export class HostAcc {
   }
 
   /** Returns true when (peer, dport) was new in this window. */
-  private addOut(s: InitiatorSets, peer: number, dport: number, sport: number, n: number, withEvidence = true): boolean {
-    s.peers.add(peer);
-    s.dports.add(dport);
+  private addOut(s: InitiatorSets, peer: number, dport: number, sport: number, n: number): boolean {
     s.entDstPorts.add(dport, n);
     s.entDstAddrs.add(peer, n);
     s.entSrcPorts.add(sport, n);
-    if (withEvidence) this.evidence(peer, dport, n);
+    if (s.peersHll) s.peersHll.add(peer);
+    else if (s.entDstAddrs.saturated) (s.peersHll = spill(s.entDstAddrs)).add(peer);
+    if (s.dportsHll) s.dportsHll.add(dport);
+    else if (s.entDstPorts.saturated) (s.dportsHll = spill(s.entDstPorts)).add(dport);
     const pairKey = peer * 65536 + dport;
     if (s.pairSet.has(pairKey)) return false;
-    if (s.pairSet.size < PAIR_SET_CAP) s.pairSet.add(pairKey);
-    s.pairCount.addPair(peer, dport);
+    if (s.pairSet.size < PAIR_SET_CAP) {
+      s.pairSet.add(pairKey);
+    } else {
+      // the exact set is full: keys past it may repeat, the sketch tells them apart
+      if (!s.pairHll) { const h = new HyperLogLog(HLL_P); for (const k of s.pairSet) h.addPair(Math.floor(k / 65536), k % 65536); s.pairHll = h; }
+      s.pairHll.addPair(peer, dport);
+    }
     s.portsPerPeer.add(peer);
     s.peersPerPort.add(dport);
     return true;
   }
 
   private addIn(s: ResponderSets, peer: number, port: number, n: number): void {
-    s.sources.add(peer);
     s.entSrcAddrs.add(peer, n);
-    this.evidence(peer, port, n);
-  }
-
-  private evidence(peer: number, port: number, n: number): void {
-    if (this.evPeers === null) {
-      this.evPeers = topPool.pop() ?? new TopK(32);
-      this.evPorts = topPool.pop() ?? new TopK(32);
-      // the other role's inline key joins the lists once they exist
-      if (this.out === null && this.oCount > 0) { this.evPeers.add(this.oPeer, this.oCount); this.evPorts.add(this.oDport, this.oCount); }
-      if (this.inn === null && this.iCount > 0) { this.evPeers.add(this.iPeer, this.iCount); this.evPorts.add(this.iPort, this.iCount); }
-    }
-    this.evPeers.add(peer, n);
-    this.evPorts!.add(port, n);
+    s.localPorts.add(port, n);
+    if (s.sourcesHll) s.sourcesHll.add(peer);
+    else if (s.entSrcAddrs.saturated) (s.sourcesHll = spill(s.entSrcAddrs)).add(peer);
   }
 
   private initiatorSets(): InitiatorSets {
     if (this.out) return this.out;
     const s = initiatorPool.pop() ?? new InitiatorSets();
-    if (this.evPeers === null) this.evidence(this.oPeer, this.oDport, 0);
     this.out = s;
-    // replay the inline key; the evidence lists took it when they were created
-    if (this.oCount > 0) this.addOut(s, this.oPeer, this.oDport, this.oSport, this.oCount, false);
+    if (this.oCount > 0) this.addOut(s, this.oPeer, this.oDport, this.oSport, this.oCount);
     return s;
   }
 
   private responderSets(): ResponderSets {
     if (this.inn) return this.inn;
     const s = responderPool.pop() ?? new ResponderSets();
-    if (this.evPeers === null) this.evidence(this.iPeer, this.iPort, 0);
     this.inn = s;
-    if (this.iCount > 0) {
-      s.sources.add(this.iPeer);
-      s.entSrcAddrs.add(this.iPeer, this.iCount);
-    }
+    if (this.iCount > 0) this.addIn(s, this.iPeer, this.iPort, this.iCount);
     return s;
   }
 
@@ -238,10 +241,8 @@ export class HostAcc {
   release(): void {
     if (this.out && initiatorPool.length < POOL_CAP) { this.out.reset(); initiatorPool.push(this.out); }
     if (this.inn && responderPool.length < POOL_CAP) { this.inn.reset(); responderPool.push(this.inn); }
-    for (const t of [this.evPeers, this.evPorts, this.failPorts]) {
-      if (t && topPool.length < 3 * POOL_CAP) { t.reset(); topPool.push(t); }
-    }
-    this.out = null; this.inn = null; this.evPeers = null; this.evPorts = null; this.failPorts = null;
+    if (this.failPorts && topPool.length < POOL_CAP) { this.failPorts.reset(); topPool.push(this.failPorts); }
+    this.out = null; this.inn = null; this.failPorts = null;
   }
 
   /** Distinct peers this host initiated to in this window (exact up to the pair-set bound). */
@@ -252,16 +253,14 @@ export class HostAcc {
     return peers;
   }
 
-  /** Top peers over both roles, by flows. */
+  /** Top peers over both roles, by flows (exact while the histograms hold every key). */
   topPeers(k: number): TopEntry[] {
-    if (this.evPeers) return this.evPeers.top(k);
-    return inlineTop(this.oPeer, this.oCount, this.iPeer, this.iCount);
+    return merged(k, this.out?.entDstAddrs, this.oPeer, this.out ? 0 : this.oCount, this.inn?.entSrcAddrs, this.iPeer, this.inn ? 0 : this.iCount);
   }
 
   /** Top ports (destination ports as initiator, local ports as responder), by flows. */
   topPorts(k: number): TopEntry[] {
-    if (this.evPorts) return this.evPorts.top(k);
-    return inlineTop(this.oDport, this.oCount, this.iPort, this.iCount);
+    return merged(k, this.out?.entDstPorts, this.oDport, this.out ? 0 : this.oCount, this.inn?.localPorts, this.iPort, this.inn ? 0 : this.iCount);
   }
 
   /** The peer this host sent to on the most distinct ports, with that count. */
@@ -284,9 +283,9 @@ export class HostAcc {
     out[F.nontcp_bytes_out] = this.nontcpOut; out[F.nontcp_bytes_in] = this.nontcpIn;
     const o = this.out;
     if (o) {
-      out[F.distinct_peers] = o.peers.count();
-      out[F.distinct_dst_ports] = o.dports.count();
-      out[F.distinct_peer_ports] = o.pairCount.count();
+      out[F.distinct_peers] = distinctOf(o.entDstAddrs, o.peersHll);
+      out[F.distinct_dst_ports] = distinctOf(o.entDstPorts, o.dportsHll);
+      out[F.distinct_peer_ports] = o.pairHll ? o.pairHll.count() : o.pairSet.size;
       out[F.max_ports_per_peer] = o.portsPerPeer.top(1)[0]?.count ?? 0;
       out[F.max_peers_per_port] = o.peersPerPort.top(1)[0]?.count ?? 0;
       out[F.entropy_dst_ports] = o.entDstPorts.normalised();
@@ -297,7 +296,7 @@ export class HostAcc {
       out[F.max_ports_per_peer] = 1; out[F.max_peers_per_port] = 1;
     }
     if (this.inn) {
-      out[F.distinct_sources] = this.inn.sources.count();
+      out[F.distinct_sources] = distinctOf(this.inn.entSrcAddrs, this.inn.sourcesHll);
       out[F.entropy_src_addrs] = this.inn.entSrcAddrs.normalised();
     } else if (this.iCount > 0) {
       out[F.distinct_sources] = 1;
@@ -316,14 +315,20 @@ export class HostAcc {
   }
 }
 
-function inlineTop(a: number, an: number, b: number, bn: number): TopEntry[] {
-  const list: TopEntry[] = [];
-  if (an > 0) list.push({ key: a, count: an, error: 0 });
-  if (bn > 0) {
-    if (an > 0 && a === b) list[0]!.count += bn;
-    else list.push({ key: b, count: bn, error: 0 });
-  }
-  return list.sort((x, y) => y.count - x.count);
+/** Top k of two roles' counts (a histogram, or an inline key with its count), summed by key. */
+function merged(
+  k: number, a: EntropyCounter | undefined, aKey: number, aCount: number,
+  b: EntropyCounter | undefined, bKey: number, bCount: number,
+): TopEntry[] {
+  const sum = new Map<number, number>();
+  const put = (key: number, n: number) => { if (n > 0) sum.set(key, (sum.get(key) ?? 0) + n); };
+  // 2k candidates per side: a key just outside one side's top k can still make the merged top k
+  if (a) for (const e of a.top(2 * k)) put(e.key, e.count);
+  put(aKey, aCount);
+  if (b) for (const e of b.top(2 * k)) put(e.key, e.count);
+  put(bKey, bCount);
+  return [...sum].map(([key, count]) => ({ key, count, error: 0 }))
+    .sort((x, y) => y.count - x.count || x.key - y.key).slice(0, k);
 }
 
 function size(r: FlowRecord): number {
