@@ -82,6 +82,13 @@ export class TopK {
     this.siftDown(0);
   }
 
+  /** The largest count monitored (0 when empty), without allocating. */
+  maxCount(): number {
+    let m = 0;
+    for (let e = 0; e < this.size; e++) if (this.counts[e]! > m) m = this.counts[e]!;
+    return m;
+  }
+
   /** The k entries with the largest counts, largest first (ties by smaller key). Allocates the result. */
   top(k: number): TopEntry[] {
     const out: TopEntry[] = [];

@@ -144,7 +144,8 @@ export class WindowAggregator {
 
   private trackNewPeer(src: HostAcc, srcId: number, dstId: number, newPair: boolean, r: FlowRecord): void {
     let list = this.recent.get(srcId);
-    if (newPair) {
+    // prevalence only grows, so a peer that is not rare at first contact never becomes rare: skip it
+    if (newPair && this.isRare(dstId)) {
       if (!list) { list = []; this.recent.set(srcId, list); }
       if (list.length >= 16) list.shift();
       list.push({ peer: dstId, first: r.start });

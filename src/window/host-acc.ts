@@ -286,8 +286,8 @@ export class HostAcc {
       out[F.distinct_peers] = distinctOf(o.entDstAddrs, o.peersHll);
       out[F.distinct_dst_ports] = distinctOf(o.entDstPorts, o.dportsHll);
       out[F.distinct_peer_ports] = o.pairHll ? o.pairHll.count() : o.pairSet.size;
-      out[F.max_ports_per_peer] = o.portsPerPeer.top(1)[0]?.count ?? 0;
-      out[F.max_peers_per_port] = o.peersPerPort.top(1)[0]?.count ?? 0;
+      out[F.max_ports_per_peer] = o.portsPerPeer.maxCount();
+      out[F.max_peers_per_port] = o.peersPerPort.maxCount();
       out[F.entropy_dst_ports] = o.entDstPorts.normalised();
       out[F.entropy_dst_addrs] = o.entDstAddrs.normalised();
       out[F.entropy_src_ports] = o.entSrcPorts.normalised();
