@@ -13,7 +13,7 @@ import { generateScenario } from './index.js';
  * volume surge, 1 MB a window to a new peer), which the 5 % payload volume would otherwise undercut.
  */
 export const DEMO = {
-  kind: 'incident', seed: 60, hours: 1, scale: 0.3, volume: 0.05, snaplen: 64, name: 'larkspur-demo',
+  kind: 'incident', seed: 60, hours: 1, scale: 0.3, volume: 0.05, snaplen: 78, name: 'larkspur-demo',
   attacks: { synPerSec: 40, surgeBytesPerMin: 3e6, uploadBytes: 12e6 },
 } as const;
 
