@@ -27,18 +27,44 @@ export function inputLabel(name: string): string {
   return name === '-' ? 'stdin' : basename(name);
 }
 
+/**
+ * Two buffers: while the reader works through one chunk the next is already being read into the other
+ * (the read runs on libuv's thread pool), so the parse loop does not wait on the copy out of the page
+ * cache. The chunk handed out is only overwritten after the following `read()` call, as the contract says.
+ */
 class FileSource implements ByteSource {
-  private buf = Buffer.allocUnsafe(CHUNK_BYTES);
+  private readonly bufs = [Buffer.allocUnsafe(CHUNK_BYTES), Buffer.allocUnsafe(CHUNK_BYTES)];
+  private next = 0;
   private pos = 0;
+  private ahead: Promise<number> | null = null;
+  private ended = false;
   constructor(readonly name: string, private fh: FileHandle, readonly size: number) {}
   consumed(): number { return this.pos; }
-  async read(): Promise<Uint8Array | null> {
-    const { bytesRead } = await this.fh.read(this.buf, 0, this.buf.length, this.pos);
-    if (bytesRead === 0) return null;
-    this.pos += bytesRead;
-    return this.buf.subarray(0, bytesRead);
+  private fill(i: number): Promise<number> {
+    return this.fh.read(this.bufs[i]!, 0, CHUNK_BYTES, null).then((r) => r.bytesRead);
   }
-  async close(): Promise<void> { await this.fh.close(); }
+  async read(): Promise<Uint8Array | null> {
+    if (this.ended) return null;
+    const i = this.next;
+    const bytesRead = await (this.ahead ?? this.fill(i));
+    this.ahead = null;
+    if (bytesRead === 0) { this.ended = true; return null; }
+    this.pos += bytesRead;
+    this.next = 1 - i;
+    // a short read of a regular file is its end: no read ahead past it
+    if (bytesRead === CHUNK_BYTES || this.size < 0) {
+      const p = this.fill(this.next);
+      p.catch(() => {}); // surfaced by the read() that awaits it
+      this.ahead = p;
+    }
+    return this.bufs[i]!.subarray(0, bytesRead);
+  }
+  async close(): Promise<void> {
+    const p = this.ahead;
+    this.ahead = null;
+    if (p) await p.catch(() => 0);
+    await this.fh.close();
+  }
 }
 
 /** Wraps a Node readable stream; coalesces small chunks (pipes deliver 64 KiB) up to CHUNK_BYTES. */
