@@ -2,8 +2,9 @@
  * Shannon entropy of a weighted histogram over unsigned 32-bit keys (ports, interned address ids),
  * kept exactly in an open-addressing table of typed arrays.
  *
- * Streaming form (METHODS.md 5): H = log2 S - (1/S) * sum n_i log2 n_i, so S and sum n_i log2 n_i are
- * updated on every `add` and `entropy()` is O(1). Normalised entropy H / log2(distinct), 0 when
+ * Form (METHODS.md 5): H = log2 S - (1/S) * sum n_i log2 n_i. `add` only counts; the sum of
+ * n_i log2 n_i is taken over the stored keys when the entropy is asked for (once per window, against
+ * many adds) and kept until the next `add`. Normalised entropy H / log2(distinct), 0 when
  * distinct <= 1 (normalisation as in Berezinski, Jasiul, Szpyrka, Entropy 17(4), 2015; the <= 1 rule is
  * our convention).
  *
@@ -26,7 +27,11 @@ export class EntropyCounter {
   private stored = 0;
   private overflowKeys = 0;
   private sum = 0;
-  private sumNLogN = 0;
+  /** sum of n log2 n over the overflow's keys (each its own key), taken as they come. */
+  private overflowNLogN = 0;
+  /** sum n_i log2 n_i as last computed, valid while `sum` equals `nLogNAt`. */
+  private nLogN = 0;
+  private nLogNAt = -1;
 
   constructor(maxDistinct = 4096) {
     if (!Number.isInteger(maxDistinct) || maxDistinct < 1) throw new RangeError('maxDistinct must be a positive integer');
@@ -47,19 +52,16 @@ export class EntropyCounter {
     let slot = fmix32(key) & mask;
     while (counts[slot] !== 0) {
       if (keys[slot] === key) {
-        const c = counts[slot]!;
-        const next = c + n;
-        this.sumNLogN += next * Math.log2(next) - c * Math.log2(c);
-        counts[slot] = next;
+        counts[slot]! += n;
         this.sum += n;
         return;
       }
       slot = (slot + 1) & mask;
     }
     this.sum += n;
-    this.sumNLogN += n * Math.log2(n);
     if (this.stored === this.maxDistinct) {
       this.overflowKeys++;
+      this.overflowNLogN += n * Math.log2(n);
       return;
     }
     keys[slot] = key;
@@ -71,8 +73,21 @@ export class EntropyCounter {
   /** Entropy in bits; 0 for an empty histogram. */
   entropy(): number {
     if (this.sum <= 0) return 0;
-    const h = Math.log2(this.sum) - this.sumNLogN / this.sum;
+    const h = Math.log2(this.sum) - this.sumNLogNow() / this.sum;
     return h > 0 ? h : 0; // rounding can leave a tiny negative for a single key
+  }
+
+  private sumNLogNow(): number {
+    if (this.nLogNAt !== this.sum) {
+      let t = this.overflowNLogN;
+      for (let i = 0; i < this.stored; i++) {
+        const c = this.counts[this.used[i]!]!;
+        t += c * Math.log2(c);
+      }
+      this.nLogN = t;
+      this.nLogNAt = this.sum;
+    }
+    return this.nLogN;
   }
 
   /** H / log2(distinct); 0 when distinct <= 1. */
@@ -140,7 +155,8 @@ export class EntropyCounter {
     this.stored = 0;
     this.overflowKeys = 0;
     this.sum = 0;
-    this.sumNLogN = 0;
+    this.overflowNLogN = 0;
+    this.nLogNAt = -1;
   }
 
   /** Typed-array bytes held. */
