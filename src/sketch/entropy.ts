@@ -42,9 +42,12 @@ export class EntropyCounter {
     this.used = new Uint32Array(slots >>> 1);
   }
 
-  /** Adds weight n (> 0; ignored otherwise) to key (coerced to unsigned 32-bit). */
-  add(key: number, n = 1): void {
-    if (!(n > 0)) return;
+  /**
+   * Adds weight n (> 0; ignored otherwise) to key (coerced to unsigned 32-bit). Returns the key's count
+   * after it, or 0 when the key went to the overflow (or n was ignored).
+   */
+  add(key: number, n = 1): number {
+    if (!(n > 0)) return 0;
     key >>>= 0;
     const counts = this.counts;
     const keys = this.keys;
@@ -52,9 +55,10 @@ export class EntropyCounter {
     let slot = fmix32(key) & mask;
     while (counts[slot] !== 0) {
       if (keys[slot] === key) {
-        counts[slot]! += n;
+        const c = counts[slot]! + n;
+        counts[slot] = c;
         this.sum += n;
-        return;
+        return c;
       }
       slot = (slot + 1) & mask;
     }
@@ -62,12 +66,13 @@ export class EntropyCounter {
     if (this.stored === this.maxDistinct) {
       this.overflowKeys++;
       this.overflowNLogN += n * Math.log2(n);
-      return;
+      return 0;
     }
     keys[slot] = key;
     counts[slot] = n;
     this.used[this.stored++] = slot;
     if (2 * this.stored >= keys.length && keys.length < slotsFor(this.maxDistinct)) this.grow();
+    return n;
   }
 
   /** Entropy in bits; 0 for an empty histogram. */

@@ -69,4 +69,15 @@ describe('HostAcc past its exact bounds', () => {
     expect(Math.abs(v[F.distinct_peer_ports]! - n) / n).toBeLessThan(3 * se);
     expect(a.sketchCapped).toBe(true);
   });
+
+  it('finds a vertical scan that starts after 5 000 other peers filled the exact per-peer counts (Space-Saving past the bound, Metwally et al. 2005)', () => {
+    const a = new HostAcc(0);
+    for (let i = 0; i < 5_000; i++) a.asInitiator(rec(1, 443, 40_000), 10_000 + i, false);
+    for (let port = 1; port <= 300; port++) a.asInitiator(rec(2, port, 41_000, 'rejected'), 99_999, false);
+    const v = a.values(new Float64Array(FEATURE_COUNT));
+    expect(v[F.max_ports_per_peer]).toBeGreaterThanOrEqual(300);
+    expect(a.topPortsPerPeer()?.key).toBe(99_999);
+    expect(v[F.max_peers_per_port]).toBe(5_000);
+    expect(a.topPeersPerPort()?.key).toBe(443);
+  });
 });

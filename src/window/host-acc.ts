@@ -24,13 +24,42 @@ function spill(h: EntropyCounter): HyperLogLog {
   return hll;
 }
 
+/**
+ * Counts per key with their maximum: exact in a histogram while it has room; keys arriving after it is
+ * full go to a Space-Saving top-k (Metwally et al. 2005), so a heavy key that shows up late is still
+ * found. The maximum is that of both parts; ties go to the smaller key, as TopK.top orders them.
+ */
+class MaxCount {
+  private readonly exact = new EntropyCounter();
+  private overflow: TopK | null = null;
+  private maxKey = -1;
+  private max = 0;
+  add(key: number): void {
+    const c = this.exact.add(key);
+    if (c === 0) (this.overflow ??= new TopK(64)).add(key);
+    else if (c > this.max || (c === this.max && key < this.maxKey)) { this.max = c; this.maxKey = key; }
+  }
+  maxCount(): number {
+    return this.overflow ? Math.max(this.max, this.overflow.maxCount()) : this.max;
+  }
+  top(): TopEntry | undefined {
+    const o = this.overflow?.top(1)[0];
+    if (o && (o.count > this.max || (o.count === this.max && o.key < this.maxKey))) return o;
+    return this.max > 0 ? { key: this.maxKey, count: this.max, error: 0 } : undefined;
+  }
+  reset(): void {
+    this.exact.reset(); this.overflow = null; this.maxKey = -1; this.max = 0;
+  }
+}
+
 /** The sets and sketches of one role, created only once a host shows a second distinct key. */
 class InitiatorSets {
   pairSet = new Set<number>();
   /** Exact pair count is pairSet.size until the set is full; then this sketch counts. */
   pairHll: HyperLogLog | null = null;
-  portsPerPeer = new TopK(64);
-  peersPerPort = new TopK(64);
+  /** Distinct ports per peer and distinct peers per port, exact (see MaxCount). */
+  portsPerPeer = new MaxCount();
+  peersPerPort = new MaxCount();
   entDstPorts = new EntropyCounter();
   entDstAddrs = new EntropyCounter();
   entSrcPorts = new EntropyCounter();
@@ -265,13 +294,13 @@ export class HostAcc {
 
   /** The peer this host sent to on the most distinct ports, with that count. */
   topPortsPerPeer(): TopEntry | undefined {
-    if (this.out) return this.out.portsPerPeer.top(1)[0];
+    if (this.out) return this.out.portsPerPeer.top();
     return this.oCount > 0 ? { key: this.oPeer, count: 1, error: 0 } : undefined;
   }
 
   /** The destination port this host sent to the most distinct peers on, with that count. */
   topPeersPerPort(): TopEntry | undefined {
-    if (this.out) return this.out.peersPerPort.top(1)[0];
+    if (this.out) return this.out.peersPerPort.top();
     return this.oCount > 0 ? { key: this.oDport, count: 1, error: 0 } : undefined;
   }
 
