@@ -20,8 +20,12 @@ const INITIAL_SLOTS = 16;
 
 export class EntropyCounter {
   readonly maxDistinct: number;
-  private keys: Uint32Array;
-  private counts: Float64Array;
+  /**
+   * Slot i is cells 2i (key) and 2i + 1 (count, 0 = empty): a probe reads one cache line, where
+   * separate key and count arrays cost two misses once the host tables outgrow the cache.
+   */
+  private cells: Float64Array;
+  private mask: number;
   /** Slots in use, in insertion order: lets reset() clear only what was written. */
   private used: Uint32Array;
   private stored = 0;
@@ -37,8 +41,8 @@ export class EntropyCounter {
     if (!Number.isInteger(maxDistinct) || maxDistinct < 1) throw new RangeError('maxDistinct must be a positive integer');
     this.maxDistinct = maxDistinct;
     const slots = Math.min(INITIAL_SLOTS, slotsFor(maxDistinct));
-    this.keys = new Uint32Array(slots);
-    this.counts = new Float64Array(slots);
+    this.cells = new Float64Array(2 * slots);
+    this.mask = slots - 1;
     this.used = new Uint32Array(slots >>> 1);
   }
 
@@ -49,18 +53,19 @@ export class EntropyCounter {
   add(key: number, n = 1): number {
     if (!(n > 0)) return 0;
     key >>>= 0;
-    const counts = this.counts;
-    const keys = this.keys;
-    const mask = keys.length - 1;
+    const cells = this.cells;
+    const mask = this.mask;
     let slot = fmix32(key) & mask;
-    while (counts[slot] !== 0) {
-      if (keys[slot] === key) {
-        const c = counts[slot]! + n;
-        counts[slot] = c;
+    let c = cells[2 * slot + 1]!;
+    while (c !== 0) {
+      if (cells[2 * slot] === key) {
+        c += n;
+        cells[2 * slot + 1] = c;
         this.sum += n;
         return c;
       }
       slot = (slot + 1) & mask;
+      c = cells[2 * slot + 1]!;
     }
     this.sum += n;
     if (this.stored === this.maxDistinct) {
@@ -68,10 +73,10 @@ export class EntropyCounter {
       this.overflowNLogN += n * Math.log2(n);
       return 0;
     }
-    keys[slot] = key;
-    counts[slot] = n;
+    cells[2 * slot] = key;
+    cells[2 * slot + 1] = n;
     this.used[this.stored++] = slot;
-    if (2 * this.stored >= keys.length && keys.length < slotsFor(this.maxDistinct)) this.grow();
+    if (2 * this.stored > mask && mask + 1 < slotsFor(this.maxDistinct)) this.grow();
     return n;
   }
 
@@ -86,7 +91,7 @@ export class EntropyCounter {
     if (this.nLogNAt !== this.sum) {
       let t = this.overflowNLogN;
       for (let i = 0; i < this.stored; i++) {
-        const c = this.counts[this.used[i]!]!;
+        const c = this.cells[2 * this.used[i]! + 1]!;
         t += c * Math.log2(c);
       }
       this.nLogN = t;
@@ -120,11 +125,11 @@ export class EntropyCounter {
   /** Count stored for key (0 if absent or in the overflow). */
   countOf(key: number): number {
     key >>>= 0;
-    const mask = this.keys.length - 1;
-    let slot = fmix32(key) & mask;
-    while (this.counts[slot] !== 0) {
-      if (this.keys[slot] === key) return this.counts[slot]!;
-      slot = (slot + 1) & mask;
+    const cells = this.cells;
+    let slot = fmix32(key) & this.mask;
+    while (cells[2 * slot + 1] !== 0) {
+      if (cells[2 * slot] === key) return cells[2 * slot + 1]!;
+      slot = (slot + 1) & this.mask;
     }
     return 0;
   }
@@ -133,7 +138,7 @@ export class EntropyCounter {
   forEach(fn: (key: number, count: number) => void): void {
     for (let i = 0; i < this.stored; i++) {
       const slot = this.used[i]!;
-      fn(this.keys[slot]!, this.counts[slot]!);
+      fn(this.cells[2 * slot]!, this.cells[2 * slot + 1]!);
     }
   }
 
@@ -156,7 +161,7 @@ export class EntropyCounter {
 
   /** Empties the histogram in O(distinct), keeping the table for reuse. */
   reset(): void {
-    for (let i = 0; i < this.stored; i++) this.counts[this.used[i]!] = 0;
+    for (let i = 0; i < this.stored; i++) this.cells[2 * this.used[i]! + 1] = 0;
     this.stored = 0;
     this.overflowKeys = 0;
     this.sum = 0;
@@ -166,26 +171,26 @@ export class EntropyCounter {
 
   /** Typed-array bytes held. */
   memoryBytes(): number {
-    return this.keys.byteLength + this.counts.byteLength + this.used.byteLength;
+    return this.cells.byteLength + this.used.byteLength;
   }
 
   private grow(): void {
-    const oldKeys = this.keys;
-    const oldCounts = this.counts;
-    const slots = oldKeys.length * 2;
+    const old = this.cells;
+    const slots = (this.mask + 1) * 2;
     const mask = slots - 1;
-    this.keys = new Uint32Array(slots);
-    this.counts = new Float64Array(slots);
+    const cells = new Float64Array(2 * slots);
     const used = new Uint32Array(slots >>> 1);
     for (let i = 0; i < this.stored; i++) {
       const from = this.used[i]!;
-      const key = oldKeys[from]!;
+      const key = old[2 * from]!;
       let slot = fmix32(key) & mask;
-      while (this.counts[slot] !== 0) slot = (slot + 1) & mask;
-      this.keys[slot] = key;
-      this.counts[slot] = oldCounts[from]!;
+      while (cells[2 * slot + 1] !== 0) slot = (slot + 1) & mask;
+      cells[2 * slot] = key;
+      cells[2 * slot + 1] = old[2 * from + 1]!;
       used[i] = slot;
     }
+    this.cells = cells;
+    this.mask = mask;
     this.used = used;
   }
 }

@@ -1,6 +1,7 @@
 import { HyperLogLog } from '../sketch/hll.js';
 import { EntropyCounter } from '../sketch/entropy.js';
 import { TopK, type TopEntry } from '../sketch/topk.js';
+import { IntSet } from '../sketch/int-set.js';
 import type { FlowRecord } from '../flow/record.js';
 import { F, FEATURE_COUNT } from './features.js';
 
@@ -54,7 +55,7 @@ class MaxCount {
 
 /** The sets and sketches of one role, created only once a host shows a second distinct key. */
 class InitiatorSets {
-  pairSet = new Set<number>();
+  pairSet = new IntSet();
   /** Exact pair count is pairSet.size until the set is full; then this sketch counts. */
   pairHll: HyperLogLog | null = null;
   /** Distinct ports per peer and distinct peers per port, exact (see MaxCount). */
@@ -86,7 +87,7 @@ class ResponderSets {
  * Sets of closed windows, reused by the next windows: typed-array allocation was the window stage's
  * largest cost. Bounded so a burst of busy hosts does not pin memory.
  */
-const POOL_CAP = 4096;
+const POOL_CAP = 16384;
 const initiatorPool: InitiatorSets[] = [];
 const responderPool: ResponderSets[] = [];
 const topPool: TopK[] = [];
@@ -207,12 +208,12 @@ export class HostAcc {
     if (s.dportsHll) s.dportsHll.add(dport);
     else if (s.entDstPorts.saturated) (s.dportsHll = spill(s.entDstPorts)).add(dport);
     const pairKey = peer * 65536 + dport;
-    if (s.pairSet.has(pairKey)) return false;
     if (s.pairSet.size < PAIR_SET_CAP) {
-      s.pairSet.add(pairKey);
+      if (!s.pairSet.add(pairKey)) return false;
     } else {
+      if (s.pairSet.has(pairKey)) return false;
       // the exact set is full: keys past it may repeat, the sketch tells them apart
-      if (!s.pairHll) { const h = new HyperLogLog(HLL_P); for (const k of s.pairSet) h.addPair(Math.floor(k / 65536), k % 65536); s.pairHll = h; }
+      if (!s.pairHll) { const h = new HyperLogLog(HLL_P); s.pairSet.forEach((k) => h.addPair(Math.floor(k / 65536), k % 65536)); s.pairHll = h; }
       s.pairHll.addPair(peer, dport);
     }
     s.portsPerPeer.add(peer);
@@ -277,7 +278,7 @@ export class HostAcc {
   /** Distinct peers this host initiated to in this window (exact up to the pair-set bound). */
   peersContacted(): Set<number> {
     const peers = new Set<number>();
-    if (this.out) for (const k of this.out.pairSet) peers.add(Math.floor(k / 65536));
+    if (this.out) this.out.pairSet.forEach((k) => peers.add(Math.floor(k / 65536)));
     else if (this.oCount > 0) peers.add(this.oPeer);
     return peers;
   }
