@@ -25,9 +25,15 @@ export function addSensorOptions(cmd: Command): Command {
     .option('--quiet', 'no progress or summary on stderr');
 }
 
+/** For the commands that read whole files (replay, train, report): where the files are read. */
+export function addReadThreadOption(cmd: Command): Command {
+  return cmd.option('--no-read-thread', 'read and decode input files on the main thread (default: a second thread, beside the detectors)');
+}
+
 export interface RawSensorOptions {
   window: string; alpha: string; maxAlertsPerHour?: string; internal?: string; sensor: string;
   lateness?: string; inputFormat?: InputFormat; quiet?: boolean; rules?: string; maxFlows?: string; maxHosts?: string;
+  readThread?: boolean;
 }
 
 export interface ParsedSensorOptions {
@@ -35,6 +41,8 @@ export interface ParsedSensorOptions {
   latenessMs: number | undefined;
   inputFormat: InputFormat | undefined;
   quiet: boolean;
+  /** Files are read on a second thread (`--no-read-thread` turns it off). */
+  readThread: boolean;
   /** Caps (src/util/caps.ts): capture flow table and window-stage hosts. */
   maxFlows: number;
   maxHosts: number;
@@ -63,7 +71,7 @@ export function parseSensorOptions(o: RawSensorOptions): ParsedSensorOptions {
   }
   return {
     sensor: { windowMs, alpha, internal, sensor: o.sensor, maxAlertsPerHour, rules },
-    latenessMs, inputFormat: o.inputFormat, quiet: o.quiet === true,
+    latenessMs, inputFormat: o.inputFormat, quiet: o.quiet === true, readThread: o.readThread !== false,
     maxFlows: positiveInt('--max-flows', o.maxFlows, DEFAULT_INGEST.maxFlows),
     maxHosts: positiveInt('--max-hosts', o.maxHosts, DEFAULT_MAX_HOSTS),
   };

@@ -2,7 +2,7 @@ import type { Command } from 'commander';
 import type { Alert } from '../alert/alert.js';
 import { Sensor } from '../sensor/sensor.js';
 import { AlertOutput } from './alert-output.js';
-import { addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
+import { addReadThreadOption, addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { describeInputs, runInputs } from './run-inputs.js';
 import { EXIT_ALERTS, EXIT_INPUT, inputError } from './exit.js';
 import { Progress } from './progress.js';
@@ -26,7 +26,7 @@ export function register(program: Command): void {
     .option('--fail-on-alert', 'exit 1 when any alert was raised')
     .option('--state <file>', 'continue from and save to a state file (SQLite, mode 0600): baselines, peers, open episodes, alerts, labels')
     .option('--show-suppressed', 'with --state: also output lines suppressed by a benign label (evidence suppressed_by)');
-  addSensorOptions(cmd).action(async (inputs: string[], raw: ReplayRaw) => {
+  addReadThreadOption(addSensorOptions(cmd)).action(async (inputs: string[], raw: ReplayRaw) => {
     const parsed = parseSensorOptions(raw);
     const output = new AlertOutput({ format: raw.format, out: raw.out, color: raw.color });
     const progress = new Progress({ quiet: parsed.quiet });
@@ -38,7 +38,7 @@ export function register(program: Command): void {
     state?.attach(sensor);
     sensor.aggregator.maxHosts = parsed.maxHosts;
     const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
-      windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet, progress,
+      windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet, readThread: parsed.readThread, progress,
       onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
     });
     // with state, open episodes continue in the next run instead of closing here

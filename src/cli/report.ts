@@ -4,7 +4,7 @@ import type { Alert } from '../alert/alert.js';
 import { collectReportData, latestEpisodes, readAlertsFile, renderReport, replayEpisodes, type EpisodeSpan, type Feed } from '../report/index.js';
 import type { Sensor } from '../sensor/sensor.js';
 import { formatProblem } from '../util/problem.js';
-import { addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
+import { addReadThreadOption, addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { runInputs } from './run-inputs.js';
 import { openExisting } from './alerts.js';
 import { Progress } from './progress.js';
@@ -30,7 +30,7 @@ export function register(program: Command): void {
     .requiredOption('--input <files...>', 'the captures or flow exports the alerts came from (files)')
     .option('--out <file>', 'where to write the page', 'report.html')
     .option('--title <text>', 'page title');
-  addSensorOptions(cmd).action(async (alertsFile: string | undefined, raw: ReportRaw) => {
+  addReadThreadOption(addSensorOptions(cmd)).action(async (alertsFile: string | undefined, raw: ReportRaw) => {
     const parsed = parseSensorOptions(raw);
     if (!alertsFile && !raw.state && raw.input.includes('-')) throw usageError('--input -: without an alerts file the input is read twice, so it must be a file');
     if (alertsFile && raw.state) throw usageError('give an alerts file or --state, not both');
@@ -51,7 +51,7 @@ export function register(program: Command): void {
     const progress = new Progress({ quiet: parsed.quiet });
     const feed: Feed = async (sensor: Sensor) => {
       const { summaries, unreadable } = await runInputs(raw.input, sensor.record, {
-        windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet, progress,
+        windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet, readThread: parsed.readThread, progress,
         onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
       });
       if (unreadable.length === raw.input.length) throw inputError(`no readable input (${unreadable.join(', ')})`);

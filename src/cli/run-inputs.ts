@@ -1,4 +1,5 @@
 import { ingestInput } from '../ingest/index.js';
+import { ingestOnThread } from '../ingest/threaded.js';
 import { DEFAULT_INGEST, type IngestSummary, type InputFormat } from '../ingest/types.js';
 import type { FlowSink } from '../flow/record.js';
 import { formatProblem, type InputProblem } from '../util/problem.js';
@@ -15,6 +16,11 @@ export interface RunInputsOptions {
   /** Capture flow-table cap (default DEFAULT_INGEST.maxFlows). */
   maxFlows?: number;
   onFormat?: (f: InputFormat) => void;
+  /**
+   * Read, decode and build flows for files on a second thread while `sink` runs here (default true);
+   * stdin is always read on this thread.
+   */
+  readThread?: boolean;
   /** Shows reading progress (default: one of our own, silent with `quiet`); pass one to clear it before other output. */
   progress?: Progress;
 }
@@ -43,7 +49,8 @@ export async function runInputs(inputs: readonly string[], sink: FlowSink, o: Ru
   };
   for (const name of inputs) {
     try {
-      const s = await ingestInput(name, sink, {
+      const ingest = o.readThread !== false && name !== '-' ? ingestOnThread : ingestInput;
+      const s = await ingest(name, sink, {
         ...DEFAULT_INGEST, windowMs: o.windowMs, maxFlows: o.maxFlows ?? DEFAULT_INGEST.maxFlows, inputFormat: o.inputFormat, onProblem, onFormat: o.onFormat,
         onSource: (src) => progress.watch(src),
       });

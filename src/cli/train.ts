@@ -1,7 +1,7 @@
 import type { Command } from 'commander';
 import { Sensor } from '../sensor/sensor.js';
 import { SensorState } from '../store/session.js';
-import { addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
+import { addReadThreadOption, addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { describeInputs, runInputs } from './run-inputs.js';
 import { formatCapCounts } from '../util/caps.js';
 import { inputCapCounts, sensorCapCounts } from './cap-counts.js';
@@ -22,7 +22,7 @@ export function register(program: Command): void {
     .description('learn baselines and peer history from captures or flow exports into a state file, without alerting')
     .argument('<input...>', 'pcap, pcapng, IPFIX, NetFlow v9, CSV or JSON-lines flow log (gzip ok); - for stdin')
     .requiredOption('--state <file>', 'state file (SQLite; created with mode 0600)');
-  addSensorOptions(cmd).action(async (inputs: string[], raw: TrainRaw) => {
+  addReadThreadOption(addSensorOptions(cmd)).action(async (inputs: string[], raw: TrainRaw) => {
     const parsed = parseSensorOptions(raw);
     const state = SensorState.open(raw.state);
     try {
@@ -30,7 +30,7 @@ export function register(program: Command): void {
       state.attach(sensor);
       sensor.aggregator.maxHosts = parsed.maxHosts;
       const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
-        windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet,
+        windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet, readThread: parsed.readThread,
         onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
       });
       state.suspend();

@@ -18,7 +18,14 @@ export interface IngestOptions {
   /** Called for every problem as it is met (the CLI prints them, bounded). */
   onProblem?: (p: InputProblem) => void;
   /** Called with the opened source before its first record (progress polls its size and consumed()). */
-  onSource?: (src: ByteSource) => void;
+  onSource?: (src: SourceProgress) => void;
+}
+
+/** What progress may know of an input being read: its name, size (-1 unknown) and bytes consumed. */
+export interface SourceProgress {
+  readonly name: string;
+  readonly size: number;
+  consumed(): number;
 }
 
 export const DEFAULT_INGEST: IngestOptions = {

@@ -2,7 +2,7 @@ import { Worker } from 'node:worker_threads';
 import type { FlowSink } from '../flow/record.js';
 import type { CollectorAddresses, CollectorHandle, CollectorListen, CollectorStats } from '../flowlog/collector.js';
 import type { InputProblem } from '../util/problem.js';
-import { readBatch, type RecordBatch } from './record-batch.js';
+import { BatchReader, type RecordBatch } from '../flow/record-batch.js';
 
 /** Messages of the collector thread. */
 export type FromCollector =
@@ -50,6 +50,7 @@ export function startCollectorThread(listen: CollectorListen, sink: FlowSink, on
   let closing = false;
   let addresses: CollectorAddresses = {};
   let onClosed: (() => void) | null = null;
+  const batches = new BatchReader();
   return new Promise((resolve, reject) => {
     worker.on('error', (e) => {
       reject(e);
@@ -58,7 +59,7 @@ export function startCollectorThread(listen: CollectorListen, sink: FlowSink, on
     worker.on('message', (m: FromCollector) => {
       switch (m.type) {
         case 'records':
-          readBatch(m.batch, sink);
+          batches.read(m.batch, sink);
           worker.postMessage({ type: 'ack' } satisfies ToCollector);
           break;
         case 'problem': onProblem?.(m.problem); break;

@@ -7,7 +7,7 @@ import { parentPort, workerData } from 'node:worker_threads';
 import type { FlowRecord } from '../flow/record.js';
 import { startCollector, type CollectorListen, type CollectorStats } from '../flowlog/collector.js';
 import type { InputProblem } from '../util/problem.js';
-import { BatchWriter, type RecordBatch } from './record-batch.js';
+import { BatchWriter, type RecordBatch } from '../flow/record-batch.js';
 import type { FromCollector, ToCollector } from './collector-thread.js';
 
 const port = parentPort!;

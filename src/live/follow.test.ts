@@ -68,6 +68,8 @@ describe('FileFollower', () => {
     // the CSV reader (csv-parse) hands over a record once it sees the next byte or the end: the old
     // generation's last record comes out at the rotation, the new one's at stop
     await until('record of the rotated file', () => got.length === 1);
+    // stop only once the new generation is open: a stop before that ends the run without it
+    await until('the new file opened', () => fol.stats.files === 2);
     fol.stop();
     await run;
     expect(got.map((r) => r.sport)).toEqual([50000, 50001]);

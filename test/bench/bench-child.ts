@@ -10,6 +10,7 @@ import { Writable } from 'node:stream';
 import { FlowRecordWriter } from '../../src/flow/record-writer.js';
 import type { FlowRecord } from '../../src/flow/record.js';
 import { ingestInput } from '../../src/ingest/index.js';
+import { ingestOnThread } from '../../src/ingest/threaded.js';
 import { DEFAULT_INGEST } from '../../src/ingest/types.js';
 import { Sensor } from '../../src/sensor/sensor.js';
 import { alertToJson } from '../../src/alert/serialize.js';
@@ -49,14 +50,17 @@ async function pcapParser(path: string) {
   return { packets, ms, cpuMs: cpuSince(c) };
 }
 
-/** `tidewatch replay` end to end in-process: capture -> flows -> windows -> detectors -> alert lines. */
-async function replay(path: string) {
+/**
+ * `tidewatch replay` end to end in-process: capture -> flows -> windows -> detectors -> alert lines;
+ * `threaded` as replay runs by default (reading thread + main thread), else `--no-read-thread`.
+ */
+async function replay(path: string, threaded: boolean) {
   let lines = 0, chars = 0;
   const sensor = new Sensor({
     windowMs: 60_000, latenessMs: 5_000, alpha: 0.001, internal: DEFAULT_INTERNAL, sensor: 'bench', mode: 'replay',
   }, (a) => { lines++; chars += alertToJson(a).length; });
   const t = process.hrtime.bigint(), c = process.cpuUsage();
-  const s = await ingestInput(path, sensor.record, DEFAULT_INGEST);
+  const s = await (threaded ? ingestOnThread : ingestInput)(path, sensor.record, DEFAULT_INGEST);
   sensor.finish();
   const ms = Number(process.hrtime.bigint() - t) / 1e6;
   return { packets: s.packets, flows: s.flows, alertLines: lines, outputChars: chars, hosts: sensor.aggregator.addresses.size, ms, cpuMs: cpuSince(c) };
@@ -92,7 +96,8 @@ function hosts(count: number) {
 }
 
 const result = mode === 'flows' ? await flows(file!)
-  : mode === 'replay' ? await replay(file!)
+  : mode === 'replay' ? await replay(file!, true)
+  : mode === 'replay-main' ? await replay(file!, false)
   : mode === 'hosts' ? hosts(Number(file))
   : await pcapParser(file!);
 process.stdout.write(JSON.stringify({ ...result, maxRssKB: process.resourceUsage().maxRSS }) + '\n');

@@ -1,0 +1,94 @@
+import { OUTCOMES, type FlowRecord, type Outcome } from './record.js';
+
+/** Numbers per record in a batch: the numeric fields, then indexes into the string table. */
+const STRIDE = 16;
+const OUTCOME_INDEX = new Map<Outcome, number>(OUTCOMES.map((o, i) => [o, i]));
+/** Strings the two sides hold before they start a new table (ours: bounds memory on hostile inputs). */
+export const STRING_TABLE_CAP = 1 << 20;
+
+/**
+ * Flow records packed for a transfer between threads: numbers in one buffer, and the strings
+ * (addresses, exporter names) first met in this batch. The string table lives on both sides across
+ * batches, so an address crosses once, not once per record or batch, and the receiving side hands out
+ * the same string object every time (its hash is computed once by the maps that key on it).
+ */
+export interface RecordBatch {
+  count: number;
+  numbers: Float64Array;
+  /** Strings appended to the table by this batch, after `reset` (the table starts again, empty) if set. */
+  strings: string[];
+  reset: boolean;
+}
+
+/**
+ * Packs records as they come (a reading or collector thread's sink) into batches that move to the
+ * main thread as one transferred buffer instead of a structured clone of every object.
+ */
+export class BatchWriter {
+  private numbers: Float64Array;
+  private strings: string[] = [];
+  private reset = false;
+  private readonly index = new Map<string, number>();
+  count = 0;
+
+  constructor(readonly capacity: number) {
+    if (!(Number.isInteger(capacity) && capacity >= 1)) throw new RangeError(`batch capacity ${capacity} is not a positive integer`);
+    this.numbers = new Float64Array(capacity * STRIDE);
+  }
+
+  get full(): boolean {
+    return this.count >= this.capacity;
+  }
+
+  add(r: FlowRecord): void {
+    // a table at its cap starts again at a batch's first record, so no record refers across the reset
+    if (this.count === 0 && this.index.size >= STRING_TABLE_CAP) { this.index.clear(); this.reset = true; }
+    const n = this.numbers, o = this.count * STRIDE;
+    n[o] = r.start; n[o + 1] = r.end; n[o + 2] = r.proto; n[o + 3] = r.sport; n[o + 4] = r.dport;
+    n[o + 5] = r.pkts; n[o + 6] = r.bytes; n[o + 7] = r.rpkts; n[o + 8] = r.rbytes; n[o + 9] = r.flags; n[o + 10] = r.rflags;
+    n[o + 11] = OUTCOME_INDEX.get(r.outcome)!; n[o + 12] = r.vlan ?? -1;
+    n[o + 13] = this.str(r.src); n[o + 14] = this.str(r.dst); n[o + 15] = this.str(r.exporter);
+    this.count++;
+  }
+
+  /** The batch so far (its buffer is handed over); the writer starts a new one. */
+  take(): RecordBatch {
+    const b: RecordBatch = { count: this.count, numbers: this.numbers, strings: this.strings, reset: this.reset };
+    this.numbers = new Float64Array(this.capacity * STRIDE);
+    this.strings = [];
+    this.reset = false;
+    this.count = 0;
+    return b;
+  }
+
+  private str(s: string): number {
+    let i = this.index.get(s);
+    if (i === undefined) {
+      i = this.index.size;
+      this.strings.push(s);
+      this.index.set(s, i);
+    }
+    return i;
+  }
+}
+
+/** The receiving side of one BatchWriter: takes its batches in order and gives back the records. */
+export class BatchReader {
+  private table: string[] = [];
+
+  read(b: RecordBatch, sink: (r: FlowRecord) => void): void {
+    if (b.reset) this.table = [];
+    for (const s of b.strings) this.table.push(s);
+    const n = b.numbers, s = this.table;
+    for (let i = 0; i < b.count; i++) {
+      const o = i * STRIDE;
+      const r: FlowRecord = {
+        start: n[o]!, end: n[o + 1]!, proto: n[o + 2]!, src: s[n[o + 13]!]!, dst: s[n[o + 14]!]!,
+        sport: n[o + 3]!, dport: n[o + 4]!, pkts: n[o + 5]!, bytes: n[o + 6]!, rpkts: n[o + 7]!, rbytes: n[o + 8]!,
+        flags: n[o + 9]!, rflags: n[o + 10]!, outcome: OUTCOMES[n[o + 11]!]!, exporter: s[n[o + 15]!]!,
+      };
+      if (n[o + 12]! >= 0) r.vlan = n[o + 12]!;
+      sink(r);
+    }
+  }
+}

@@ -1,0 +1,50 @@
+/**
+ * The reading thread of ingestOnThread (threaded.ts): runs ingestInput on one input and sends its
+ * records to the main thread in transferred batches, waiting while the main thread is behind.
+ */
+import { parentPort, workerData } from 'node:worker_threads';
+import type { FlowRecord } from '../flow/record.js';
+import { BatchWriter } from '../flow/record-batch.js';
+import { ingestInput } from './index.js';
+import type { FromReader, ReaderData } from './threaded.js';
+import type { SourceProgress } from './types.js';
+
+const port = parentPort!;
+const { name, opts, inFlight, batchRecords, maxInFlight, forwardedProblems } = workerData as ReaderData;
+const post = (m: FromReader, transfer?: ArrayBuffer[]) => port.postMessage(m, transfer);
+
+const writer = new BatchWriter(batchRecords);
+let source: SourceProgress | null = null;
+
+const flush = () => {
+  if (writer.count === 0) return;
+  const batch = writer.take();
+  Atomics.add(inFlight, 0, 1);
+  post({ type: 'records', batch, consumed: source?.consumed() ?? 0 }, [batch.numbers.buffer as ArrayBuffer]);
+  // the main thread takes batches in order; this thread blocks (not spins) until it has room again
+  for (;;) {
+    const n = Atomics.load(inFlight, 0);
+    if (n < maxInFlight) break;
+    Atomics.wait(inFlight, 0, n, 1000);
+  }
+};
+const sink = (r: FlowRecord) => {
+  writer.add(r);
+  if (writer.full) flush();
+};
+let problems = 0;
+
+try {
+  const summary = await ingestInput(name, sink, {
+    ...opts,
+    onFormat: (format) => post({ type: 'format', format }),
+    onSource: (src) => { source = src; post({ type: 'source', name: src.name, size: src.size }); },
+    onProblem: (problem) => { if (++problems <= forwardedProblems) post({ type: 'problem', problem }); },
+  });
+  flush();
+  post({ type: 'done', summary });
+} catch (e) {
+  flush();
+  post({ type: 'failed', message: (e as Error).message });
+}
+port.close();
