@@ -34,6 +34,11 @@ export async function ingestInput(name: string, sink: FlowSink, opts: IngestOpti
   }
   opts.onFormat?.(format);
   opts.onSource?.(src);
+  const onRead = opts.onRead;
+  if (onRead) {
+    const inner = src;
+    src = { name: inner.name, size: inner.size, consumed: () => inner.consumed(), close: () => inner.close(), read: () => { onRead(); return inner.read(); } };
+  }
   try {
     return await fn(src, sink, opts);
   } finally {

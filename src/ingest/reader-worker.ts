@@ -38,6 +38,9 @@ try {
   const summary = await ingestInput(name, sink, {
     ...opts,
     onFormat: (format) => post({ type: 'format', format }),
+    // a partial batch goes whenever the reader comes back for bytes (every 4 MiB of a file), so the
+    // main thread starts on the first records without waiting for a full batch
+    onRead: flush,
     onSource: (src) => { source = src; post({ type: 'source', name: src.name, size: src.size }); },
     onProblem: (problem) => { if (++problems <= forwardedProblems) post({ type: 'problem', problem }); },
   });

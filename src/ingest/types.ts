@@ -17,6 +17,8 @@ export interface IngestOptions {
   onFormat?: (format: InputFormat) => void;
   /** Called for every problem as it is met (the CLI prints them, bounded). */
   onProblem?: (p: InputProblem) => void;
+  /** Called before each read of more input bytes (the reading thread sends what it has batched). */
+  onRead?: () => void;
   /** Called with the opened source before its first record (progress polls its size and consumed()). */
   onSource?: (src: SourceProgress) => void;
 }

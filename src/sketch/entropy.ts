@@ -21,10 +21,10 @@ const INITIAL_SLOTS = 16;
 export class EntropyCounter {
   readonly maxDistinct: number;
   /**
-   * Slot i is cells 2i (key) and 2i + 1 (count, 0 = empty): a probe reads one cache line, where
-   * separate key and count arrays cost two misses once the host tables outgrow the cache.
+   * Slot i is cells 2i (key) and 2i + 1 (count, 0 = empty), eight octets: a probe reads one cache
+   * line, where separate key and count arrays cost two misses once the host tables outgrow the cache.
    */
-  private cells: Float64Array;
+  private cells: Uint32Array;
   private mask: number;
   /** Slots in use, in insertion order: lets reset() clear only what was written. */
   private used: Uint32Array;
@@ -41,17 +41,19 @@ export class EntropyCounter {
     if (!Number.isInteger(maxDistinct) || maxDistinct < 1) throw new RangeError('maxDistinct must be a positive integer');
     this.maxDistinct = maxDistinct;
     const slots = Math.min(INITIAL_SLOTS, slotsFor(maxDistinct));
-    this.cells = new Float64Array(2 * slots);
+    this.cells = new Uint32Array(2 * slots);
     this.mask = slots - 1;
     this.used = new Uint32Array(slots >>> 1);
   }
 
   /**
-   * Adds weight n (> 0; ignored otherwise) to key (coerced to unsigned 32-bit). Returns the key's count
-   * after it, or 0 when the key went to the overflow (or n was ignored).
+   * Adds whole weight n (>= 1, ignored otherwise; counts of flows, each key's total below 2^32) to key
+   * (coerced to unsigned 32-bit). Returns the key's count after it, or 0 when the key went to the
+   * overflow (or n was ignored).
    */
   add(key: number, n = 1): number {
-    if (!(n > 0)) return 0;
+    if (!(n >= 1)) return 0;
+    n = Math.floor(n);
     key >>>= 0;
     const cells = this.cells;
     const mask = this.mask;
@@ -178,7 +180,7 @@ export class EntropyCounter {
     const old = this.cells;
     const slots = (this.mask + 1) * 2;
     const mask = slots - 1;
-    const cells = new Float64Array(2 * slots);
+    const cells = new Uint32Array(2 * slots);
     const used = new Uint32Array(slots >>> 1);
     for (let i = 0; i < this.stored; i++) {
       const from = this.used[i]!;

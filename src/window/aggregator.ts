@@ -150,7 +150,8 @@ export class WindowAggregator {
       if (list.length >= 16) list.shift();
       list.push({ peer: dstId, first: r.start });
     }
-    if (!list) return;
+    // only a rare peer's bytes count, and rare is checked first: most records go to common peers
+    if (!list || !this.isRare(dstId)) return;
     for (const p of list) {
       if (p.peer !== dstId) continue;
       if (r.start - p.first > this.newPeerMemory) return;
