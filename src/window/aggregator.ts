@@ -33,6 +33,42 @@ export interface ClosedWindow {
 
 interface RecentPeer { peer: number; first: number }
 
+/**
+ * The hosts of one open window: a list in arrival order and an id-indexed table of positions, so a
+ * record finds its hosts' accumulators by array index rather than by hashing. Reused window after
+ * window (clearing touches only the hosts it held).
+ */
+class HostBucket {
+  readonly hosts: HostAcc[] = [];
+  /** at[id] = position in `hosts` + 1; 0 = not in this window. */
+  private at = new Int32Array(1024);
+
+  get(id: number): HostAcc | undefined {
+    const i = id < this.at.length ? this.at[id]! : 0;
+    return i > 0 ? this.hosts[i - 1] : undefined;
+  }
+
+  put(a: HostAcc): void {
+    const id = a.hostId;
+    if (id >= this.at.length) {
+      let n = this.at.length;
+      while (n <= id) n *= 2;
+      const at = new Int32Array(n);
+      at.set(this.at);
+      this.at = at;
+    }
+    this.hosts.push(a);
+    this.at[id] = this.hosts.length;
+  }
+
+  clear(): void {
+    for (const h of this.hosts) this.at[h.hostId] = 0;
+    this.hosts.length = 0;
+  }
+}
+/** Empty buckets kept for the next windows. */
+const BUCKET_POOL_CAP = 4;
+
 /** WindowAggregator state between windows (see snapshot()). */
 export interface AggregatorSnapshot {
   addresses: AddressTableSnapshot;
@@ -63,7 +99,8 @@ export class WindowAggregator {
   insideHosts = 0;
   private insideSeen = new Uint8Array(1024);
   private recent = new Map<number, RecentPeer[]>();
-  private open = new Map<number, Map<number, HostAcc>>();
+  private open = new Map<number, HostBucket>();
+  private readonly bucketPool: HostBucket[] = [];
   /** Index of the next window to close (all earlier ones are closed). */
   private nextClose = Number.NaN;
   private maxTime = Number.NEGATIVE_INFINITY;
@@ -211,8 +248,9 @@ export class WindowAggregator {
       this.open.delete(w);
       this.nextClose = w + 1;
       this.stats.windowsClosed++;
-      if (bucket) for (const h of bucket.values()) if (h.sketchCapped) this.stats.sketchCapped++;
-      const hosts = bucket ? [...bucket.values()] : [];
+      if (bucket) for (const h of bucket.hosts) if (h.sketchCapped) this.stats.sketchCapped++;
+      const hosts = bucket ? bucket.hosts.slice() : [];
+      if (bucket) { bucket.clear(); if (this.bucketPool.length < BUCKET_POOL_CAP) this.bucketPool.push(bucket); }
       this.onClose({ start: w * this.W, end: (w + 1) * this.W, hosts });
       for (const h of hosts) {
         h.release();
@@ -259,17 +297,17 @@ export class WindowAggregator {
     Object.assign(this.stats, s.stats);
   }
 
-  private bucket(w: number): Map<number, HostAcc> {
+  private bucket(w: number): HostBucket {
     let b = this.open.get(w);
-    if (!b) { b = new Map(); this.open.set(w, b); }
+    if (!b) { b = this.bucketPool.pop() ?? new HostBucket(); this.open.set(w, b); }
     return b;
   }
 
-  private acc(b: Map<number, HostAcc>, id: number): HostAcc {
+  private acc(b: HostBucket, id: number): HostAcc {
     let a = b.get(id);
     if (!a) {
       a = this.accPool.pop()?.reuse(id) ?? new HostAcc(id);
-      b.set(id, a);
+      b.put(a);
     }
     return a;
   }

@@ -118,6 +118,10 @@ export class HostAcc {
   /** Destination ports of failed attempts (scan evidence). */
   failPorts: TopK | null = null;
   samples: FlowRecord[] = [];
+  /** Sizes of the samples, made with the first sample (most hosts keep none). */
+  private sampleSizes: Float64Array | null = null;
+  /** Index of the smallest sample once all SAMPLE_FLOWS are taken. */
+  private smallest = 0;
 
   constructor(public hostId: number) {}
 
@@ -248,13 +252,27 @@ export class HostAcc {
     // a host's first flow of the window is not kept: most hosts make one flow and never alert, and
     // holding every record until its window closes would age millions of them into the old heap
     if (this.flowsOut + this.flowsIn < 2) return;
-    if (this.samples.length < SAMPLE_FLOWS) { this.samples.push(r); return; }
-    // keep the largest flows beyond the first few: replace the smallest sample
-    let min = 0;
-    for (let i = 1; i < this.samples.length; i++) {
-      if (size(this.samples[i]!) < size(this.samples[min]!)) min = i;
+    const sizes = (this.sampleSizes ??= new Float64Array(SAMPLE_FLOWS));
+    if (this.samples.length < SAMPLE_FLOWS) {
+      sizes[this.samples.length] = size(r);
+      this.samples.push(r);
+      if (this.samples.length === SAMPLE_FLOWS) this.findSmallestSample(sizes);
+      return;
     }
-    if (size(r) > size(this.samples[min]!)) this.samples[min] = r;
+    // keep the largest flows beyond the first few: replace the smallest sample. Sizes are kept beside
+    // the samples, so a busy host's records do not each revisit five old record objects.
+    const sz = size(r);
+    if (sz > sizes[this.smallest]!) {
+      this.samples[this.smallest] = r;
+      sizes[this.smallest] = sz;
+      this.findSmallestSample(sizes);
+    }
+  }
+
+  private findSmallestSample(sizes: Float64Array): void {
+    let min = 0;
+    for (let i = 1; i < SAMPLE_FLOWS; i++) if (sizes[i]! < sizes[min]!) min = i;
+    this.smallest = min;
   }
 
   /** True when a bounded set or counter of this window filled up (counts past it are estimates). */
