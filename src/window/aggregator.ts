@@ -98,6 +98,8 @@ export class WindowAggregator {
   /** Inside addresses seen so far. */
   insideHosts = 0;
   private insideSeen = new Uint8Array(1024);
+  /** Per address id: 0 not looked at yet, 1 a host, 2 not a host (multicast, broadcast, unspecified). */
+  private nonHostSeen = new Uint8Array(1024);
   private recent = new Map<number, RecentPeer[]>();
   private open = new Map<number, HostBucket>();
   private readonly bucketPool: HostBucket[] = [];
@@ -165,7 +167,9 @@ export class WindowAggregator {
     const src = this.acc(bucket, srcId);
     src.asInitiator(r, dstId, newPair, share);
     if (srcInside) this.trackNewPeer(src, srcId, dstId, newPair, r);
-    const toHost = !isNonHost(r.dst);
+    let nh = this.nonHostSeen[dstId]!;
+    if (nh === 0) this.nonHostSeen[dstId] = nh = isNonHost(r.dst) ? 2 : 1;
+    const toHost = nh === 1;
     if (toHost) this.acc(bucket, dstId).asResponder(r, srcId, share);
     else this.stats.nonHostDst++;
     for (let k = w + 1; k <= last; k++) {
@@ -289,6 +293,7 @@ export class WindowAggregator {
     this.history.restore(s.history);
     this.prevalence = s.prevalence.slice();
     this.insideSeen = s.insideSeen.slice();
+    this.nonHostSeen = new Uint8Array(Math.max(this.prevalence.length, this.insideSeen.length));
     this.insideHosts = s.insideHosts;
     this.recent = new Map(s.recent.map((r) => [r.host, r.peers.map((peer, i) => ({ peer, first: r.firsts[i]! }))]));
     this.open.clear();
@@ -330,5 +335,6 @@ export class WindowAggregator {
     while (len < n) len *= 2;
     const p = new Uint16Array(len); p.set(this.prevalence); this.prevalence = p;
     const s = new Uint8Array(len); s.set(this.insideSeen); this.insideSeen = s;
+    const nh = new Uint8Array(len); nh.set(this.nonHostSeen); this.nonHostSeen = nh;
   }
 }
