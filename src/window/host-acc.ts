@@ -53,22 +53,69 @@ class MaxCount {
   }
 }
 
+/** The largest count of distinct ports per peer and of distinct peers per port, with their keys. */
+interface PairShape { portsPerPeer: TopEntry | undefined; peersPerPort: TopEntry | undefined }
+
+/** Scratch counters for pair shapes, shared: a shape is worked out for one host at a time. */
+const shapePeers = new EntropyCounter(PAIR_SET_CAP);
+const shapePorts = new EntropyCounter(PAIR_SET_CAP);
+
+/** The key with the largest count, ties to the smaller key (as TopK.top orders them). */
+function largest(h: EntropyCounter): TopEntry | undefined {
+  let key = -1, count = 0;
+  h.forEach((k, c) => { if (c > count || (c === count && k < key)) { key = k; count = c; } });
+  return count > 0 ? { key, count, error: 0 } : undefined;
+}
+
 /** The sets and sketches of one role, created only once a host shows a second distinct key. */
 class InitiatorSets {
   pairSet = new IntSet();
   /** Exact pair count is pairSet.size until the set is full; then this sketch counts. */
   pairHll: HyperLogLog | null = null;
-  /** Distinct ports per peer and distinct peers per port, exact (see MaxCount). */
-  portsPerPeer = new MaxCount();
-  peersPerPort = new MaxCount();
+  /**
+   * Distinct ports per peer and peers per port: worked out from the exact pair set when asked (once
+   * per window, with scratch tables that stay in cache), and counted as pairs come only once the set
+   * is full (seeded with every pair it holds).
+   */
+  private shape: PairShape | null = null;
+  portsPerPeer: MaxCount | null = null;
+  peersPerPort: MaxCount | null = null;
   entDstPorts = new EntropyCounter();
   entDstAddrs = new EntropyCounter();
   entSrcPorts = new EntropyCounter();
   peersHll: HyperLogLog | null = null;
   dportsHll: HyperLogLog | null = null;
+
+  /** A new (peer, port) pair: counted online once the exact set is full. */
+  newPair(peer: number, dport: number): void {
+    this.shape = null;
+    if (this.pairSet.size < PAIR_SET_CAP) return;
+    if (!this.portsPerPeer) {
+      const pp = new MaxCount(), pq = new MaxCount();
+      this.pairSet.forEach((k) => { pp.add(Math.floor(k / 65536)); pq.add(k % 65536); });
+      this.portsPerPeer = pp; this.peersPerPort = pq;
+      // the pair that filled the set is in it already
+      if (this.pairSet.has(peer * 65536 + dport)) return;
+    }
+    this.portsPerPeer.add(peer);
+    this.peersPerPort!.add(dport);
+  }
+
+  pairShape(): PairShape {
+    if (this.shape) return this.shape;
+    if (this.portsPerPeer) {
+      this.shape = { portsPerPeer: this.portsPerPeer.top(), peersPerPort: this.peersPerPort!.top() };
+    } else {
+      this.pairSet.forEach((k) => { shapePeers.add(Math.floor(k / 65536)); shapePorts.add(k % 65536); });
+      this.shape = { portsPerPeer: largest(shapePeers), peersPerPort: largest(shapePorts) };
+      shapePeers.reset(); shapePorts.reset();
+    }
+    return this.shape;
+  }
+
   reset(): void {
     this.pairSet.clear(); this.pairHll = null; this.peersHll = null; this.dportsHll = null;
-    this.portsPerPeer.reset(); this.peersPerPort.reset();
+    this.shape = null; this.portsPerPeer = null; this.peersPerPort = null;
     this.entDstPorts.reset(); this.entDstAddrs.reset(); this.entSrcPorts.reset();
   }
 }
@@ -220,8 +267,7 @@ export class HostAcc {
       if (!s.pairHll) { const h = new HyperLogLog(HLL_P); s.pairSet.forEach((k) => h.addPair(Math.floor(k / 65536), k % 65536)); s.pairHll = h; }
       s.pairHll.addPair(peer, dport);
     }
-    s.portsPerPeer.add(peer);
-    s.peersPerPort.add(dport);
+    s.newPair(peer, dport);
     return true;
   }
 
@@ -313,13 +359,13 @@ export class HostAcc {
 
   /** The peer this host sent to on the most distinct ports, with that count. */
   topPortsPerPeer(): TopEntry | undefined {
-    if (this.out) return this.out.portsPerPeer.top();
+    if (this.out) return this.out.pairShape().portsPerPeer;
     return this.oCount > 0 ? { key: this.oPeer, count: 1, error: 0 } : undefined;
   }
 
   /** The destination port this host sent to the most distinct peers on, with that count. */
   topPeersPerPort(): TopEntry | undefined {
-    if (this.out) return this.out.peersPerPort.top();
+    if (this.out) return this.out.pairShape().peersPerPort;
     return this.oCount > 0 ? { key: this.oDport, count: 1, error: 0 } : undefined;
   }
 
@@ -334,8 +380,9 @@ export class HostAcc {
       out[F.distinct_peers] = distinctOf(o.entDstAddrs, o.peersHll);
       out[F.distinct_dst_ports] = distinctOf(o.entDstPorts, o.dportsHll);
       out[F.distinct_peer_ports] = o.pairHll ? o.pairHll.count() : o.pairSet.size;
-      out[F.max_ports_per_peer] = o.portsPerPeer.maxCount();
-      out[F.max_peers_per_port] = o.peersPerPort.maxCount();
+      const shape = o.pairShape();
+      out[F.max_ports_per_peer] = shape.portsPerPeer?.count ?? 0;
+      out[F.max_peers_per_port] = shape.peersPerPort?.count ?? 0;
       out[F.entropy_dst_ports] = o.entDstPorts.normalised();
       out[F.entropy_dst_addrs] = o.entDstAddrs.normalised();
       out[F.entropy_src_ports] = o.entSrcPorts.normalised();
