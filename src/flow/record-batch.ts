@@ -29,6 +29,8 @@ export class BatchWriter {
   private strings: string[] = [];
   private reset = false;
   private readonly index = new Map<string, number>();
+  private lastExporter: string | null = null;
+  private lastExporterIndex = -1;
   count = 0;
 
   constructor(readonly capacity: number) {
@@ -42,12 +44,15 @@ export class BatchWriter {
 
   add(r: FlowRecord): void {
     // a table at its cap starts again at a batch's first record, so no record refers across the reset
-    if (this.count === 0 && this.index.size >= STRING_TABLE_CAP) { this.index.clear(); this.reset = true; }
+    if (this.count === 0 && this.index.size >= STRING_TABLE_CAP) { this.index.clear(); this.reset = true; this.lastExporter = null; }
     const n = this.numbers, o = this.count * STRIDE;
     n[o] = r.start; n[o + 1] = r.end; n[o + 2] = r.proto; n[o + 3] = r.sport; n[o + 4] = r.dport;
     n[o + 5] = r.pkts; n[o + 6] = r.bytes; n[o + 7] = r.rpkts; n[o + 8] = r.rbytes; n[o + 9] = r.flags; n[o + 10] = r.rflags;
     n[o + 11] = OUTCOME_INDEX.get(r.outcome)!; n[o + 12] = r.vlan ?? -1;
-    n[o + 13] = this.str(r.src); n[o + 14] = this.str(r.dst); n[o + 15] = this.str(r.exporter);
+    n[o + 13] = this.str(r.src); n[o + 14] = this.str(r.dst);
+    // one exporter name for a whole input as a rule: no lookup while it stays the same
+    if (r.exporter !== this.lastExporter) { this.lastExporter = r.exporter; this.lastExporterIndex = this.str(r.exporter); }
+    n[o + 15] = this.lastExporterIndex;
     this.count++;
   }
 
