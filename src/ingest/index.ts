@@ -1,13 +1,8 @@
 import type { FlowSink } from '../flow/record.js';
 import { openSource, peekSource, gunzipSource, type ByteSource } from './source.js';
 import { sniffFormat } from './sniff.js';
-import type { IngestOptions, IngestSummary, InputFormat, Ingestor } from './types.js';
-
-/** Registry of ingest paths by format; capture/ and flowlog/ fill it (see ingest/paths.ts). */
-const paths = new Map<InputFormat, Ingestor>();
-export function registerIngestor(formats: readonly InputFormat[], fn: Ingestor): void {
-  for (const f of formats) paths.set(f, fn);
-}
+import { loaders } from './paths.js';
+import type { IngestOptions, IngestSummary } from './types.js';
 
 /**
  * Opens INPUT (a path or `-`), sniffs its format from the first bytes (gzip of any format included),
@@ -15,7 +10,6 @@ export function registerIngestor(formats: readonly InputFormat[], fn: Ingestor):
  * its format is not recognised; bad data inside a recognised input is reported in the summary.
  */
 export async function ingestInput(name: string, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
-  await import('./paths.js');
   let src: ByteSource = await openSource(name);
   let { head, source } = await peekSource(src, 64);
   if (head.length >= 2 && head[0] === 0x1f && head[1] === 0x8b) {
@@ -27,7 +21,7 @@ export async function ingestInput(name: string, sink: FlowSink, opts: IngestOpti
     await src.close();
     throw new Error(head.length === 0 ? `${name}: empty input` : `${name}: not a recognised capture or flow export (first bytes ${hex(head.subarray(0, 8))})`);
   }
-  const fn = paths.get(format);
+  const fn = await loaders.get(format)?.();
   if (!fn) {
     await src.close();
     throw new Error(`${name}: ${format} input is not supported yet`);
