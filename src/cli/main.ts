@@ -1,16 +1,26 @@
 #!/usr/bin/env node
 import { Command, CommanderError } from 'commander';
 import { CliError, EXIT_USAGE } from './exit.js';
-import { register as registerFlows } from './flows.js';
-import { register as registerReplay } from './replay.js';
-import { register as registerEval } from './eval.js';
-import { register as registerDemo } from './demo.js';
-import { register as registerReport } from './report.js';
-import { register as registerRules } from './rules.js';
-import { register as registerTrain } from './train.js';
-import { register as registerAlerts } from './alerts.js';
-import { register as registerLabel } from './label.js';
-import { register as registerWatch } from './watch.js';
+
+/**
+ * Command modules by name, in help order. A run loads only the module of the command it names (a
+ * `flows` or `replay` run does not load the report, the collector or the state store); `--help`, no
+ * command or an unknown one load them all.
+ */
+type Module = Promise<{ register(program: Command): void }>;
+const COMMANDS: [name: string, load: () => Module][] = [
+  ['flows', () => import('./flows.js')],
+  ['replay', () => import('./replay.js')],
+  ['eval', () => import('./eval.js')],
+  ['demo', () => import('./demo.js')],
+  ['report', () => import('./report.js')],
+  ['rules', () => import('./rules.js')],
+  ['train', () => import('./train.js')],
+  ['alerts', () => import('./alerts.js')],
+  ['label', () => import('./label.js')],
+  ['labels', () => import('./label.js')],
+  ['watch', () => import('./watch.js')],
+];
 
 const program = new Command();
 program
@@ -21,16 +31,16 @@ program
   .showHelpAfterError()
   .exitOverride();
 
-registerFlows(program);
-registerReplay(program);
-registerEval(program);
-registerDemo(program);
-registerReport(program);
-registerRules(program);
-registerTrain(program);
-registerAlerts(program);
-registerLabel(program);
-registerWatch(program);
+const named = COMMANDS.find(([name]) => name === process.argv[2]);
+const modules = new Set(named ? [named[1]] : COMMANDS.map(([, load]) => load));
+// label.js registers both label and labels: each module once
+const loaded = new Set<unknown>();
+for (const load of modules) {
+  const m = await load();
+  if (loaded.has(m)) continue;
+  loaded.add(m);
+  m.register(program);
+}
 
 async function run(): Promise<void> {
   try {
