@@ -102,6 +102,8 @@ export class WindowAggregator {
   private nonHostSeen = new Uint8Array(1024);
   private recent = new Map<number, RecentPeer[]>();
   private open = new Map<number, HostBucket>();
+  private lastBucketW = Number.NaN;
+  private lastBucket: HostBucket | null = null;
   private readonly bucketPool: HostBucket[] = [];
   /** Index of the next window to close (all earlier ones are closed). */
   private nextClose = Number.NaN;
@@ -250,6 +252,7 @@ export class WindowAggregator {
       const w = this.nextClose;
       const bucket = this.open.get(w);
       this.open.delete(w);
+      if (this.lastBucketW === w) { this.lastBucketW = Number.NaN; this.lastBucket = null; }
       this.nextClose = w + 1;
       this.stats.windowsClosed++;
       if (bucket) for (const h of bucket.hosts) if (h.sketchCapped) this.stats.sketchCapped++;
@@ -297,14 +300,20 @@ export class WindowAggregator {
     this.insideHosts = s.insideHosts;
     this.recent = new Map(s.recent.map((r) => [r.host, r.peers.map((peer, i) => ({ peer, first: r.firsts[i]! }))]));
     this.open.clear();
+    this.lastBucketW = Number.NaN;
+    this.lastBucket = null;
     this.nextClose = s.nextClose;
     this.maxTime = s.maxTime;
     Object.assign(this.stats, s.stats);
   }
 
   private bucket(w: number): HostBucket {
+    // nearly every record goes to the window of the one before it
+    if (w === this.lastBucketW && this.lastBucket) return this.lastBucket;
     let b = this.open.get(w);
     if (!b) { b = this.bucketPool.pop() ?? new HostBucket(); this.open.set(w, b); }
+    this.lastBucketW = w;
+    this.lastBucket = b;
     return b;
   }
 
