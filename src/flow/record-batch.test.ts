@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { OUTCOMES, type FlowRecord } from './record.js';
-import { BatchReader, BatchWriter, STRING_TABLE_CAP } from './record-batch.js';
+import { BatchReader, BatchWriter } from './record-batch.js';
 
 describe('record batches between threads', () => {
   it('give back the same records in order: fractional times, IPv6, every outcome, vlan or none', () => {
@@ -39,10 +39,11 @@ describe('record batches between threads', () => {
     reader.read(second, (r) => got.push(r));
     expect(got.map((r) => r.dst)).toEqual(['198.51.100.9', '198.51.100.9', '198.51.100.10']);
     // past the cap: the batch after it says reset and carries every string its records use
-    const big = new BatchWriter(1);
+    const CAP = 1000;
+    const big = new BatchWriter(1, CAP);
     const bigReader = new BatchReader();
     let resetAt = -1;
-    for (let i = 0; i <= STRING_TABLE_CAP && resetAt < 0; i++) {
+    for (let i = 0; i <= CAP && resetAt < 0; i++) {
       const r = { ...base, src: `10.${(i >> 16) & 255}.${(i >> 8) & 255}.${i & 255}` };
       big.add(r);
       const b = big.take();
@@ -51,7 +52,7 @@ describe('record batches between threads', () => {
       expect(out).toEqual([r]);
       if (b.reset) { resetAt = i; expect(b.strings).toEqual([r.src, r.dst, r.exporter]); }
     }
-    expect(resetAt).toBe(STRING_TABLE_CAP - 2);
+    expect(resetAt).toBe(CAP - 2);
   });
   it('refuses a capacity that is not a positive integer', () => {
     expect(() => new BatchWriter(0)).toThrow(RangeError);

@@ -33,7 +33,8 @@ export class BatchWriter {
   private lastExporterIndex = -1;
   count = 0;
 
-  constructor(readonly capacity: number) {
+  /** @param tableCap strings held before the table starts again (tests make it small) */
+  constructor(readonly capacity: number, private readonly tableCap = STRING_TABLE_CAP) {
     if (!(Number.isInteger(capacity) && capacity >= 1)) throw new RangeError(`batch capacity ${capacity} is not a positive integer`);
     this.numbers = new Float64Array(capacity * STRIDE);
   }
@@ -44,7 +45,7 @@ export class BatchWriter {
 
   add(r: FlowRecord): void {
     // a table at its cap starts again at a batch's first record, so no record refers across the reset
-    if (this.count === 0 && this.index.size >= STRING_TABLE_CAP) { this.index.clear(); this.reset = true; this.lastExporter = null; }
+    if (this.count === 0 && this.index.size >= this.tableCap) { this.index.clear(); this.reset = true; this.lastExporter = null; }
     const n = this.numbers, o = this.count * STRIDE;
     n[o] = r.start; n[o + 1] = r.end; n[o + 2] = r.proto; n[o + 3] = r.sport; n[o + 4] = r.dport;
     n[o + 5] = r.pkts; n[o + 6] = r.bytes; n[o + 7] = r.rpkts; n[o + 8] = r.rbytes; n[o + 9] = r.flags; n[o + 10] = r.rflags;
