@@ -1,4 +1,4 @@
-import type { FlowRecord } from '../flow/record.js';
+import type { SampleRecord } from '../window/host-acc.js';
 import type { TopEntry } from '../sketch/topk.js';
 import { rfc3339 } from '../util/time.js';
 import type { Evidence, PeerCount, PortCount, SampleFlow } from './finding.js';
@@ -14,7 +14,7 @@ export function topPorts(list: readonly TopEntry[]): PortCount[] {
   return list.map((e) => ({ port: e.key, count: e.count }));
 }
 
-export function sampleFlow(r: FlowRecord): SampleFlow {
+export function sampleFlow(r: SampleRecord): SampleFlow {
   return {
     start: rfc3339(r.start), proto: r.proto, src: r.src, dst: r.dst, sport: r.sport, dport: r.dport,
     pkts: r.pkts, bytes: r.bytes, rpkts: r.rpkts, rbytes: r.rbytes, outcome: r.outcome,
@@ -27,7 +27,7 @@ export function baseEvidence(ctx: HostContext, extras: Record<string, unknown> =
   return {
     top_peers: topPeers(a.topPeers(TOP), ctx.name),
     top_ports: topPorts(a.topPorts(TOP)),
-    sample_flows: a.samples.map(sampleFlow),
+    sample_flows: a.sampleRecords(ctx.name).map(sampleFlow),
     flows: a.flowsOut + a.flowsIn,
     packets: a.pktsOut + a.pktsIn,
     bytes: a.bytesOut + a.bytesIn,

@@ -2,12 +2,17 @@ import { HyperLogLog } from '../sketch/hll.js';
 import { EntropyCounter } from '../sketch/entropy.js';
 import { TopK, type TopEntry } from '../sketch/topk.js';
 import { IntSet } from '../sketch/int-set.js';
-import type { FlowRecord } from '../flow/record.js';
+import { OUTCOMES, type FlowRecord } from '../flow/record.js';
 import { F, FEATURE_COUNT } from './features.js';
 
 /** Bound on exact (peer, port) pairs per host-window; past it counts continue in a HyperLogLog. */
 export const PAIR_SET_CAP = 8192;
 const SAMPLE_FLOWS = 5;
+/** A sample flow as numbers: start, proto, peer id, host is the source (1/0), sport, dport, pkts, bytes, rpkts, rbytes, outcome index. */
+const SAMPLE_FIELDS = 11;
+
+/** What evidence shows of a sample flow (detect/evidence.ts). */
+export type SampleRecord = Pick<FlowRecord, 'start' | 'proto' | 'src' | 'dst' | 'sport' | 'dport' | 'pkts' | 'bytes' | 'rpkts' | 'rbytes' | 'outcome'>;
 /** HyperLogLog precision of per-window distinct counts: 1.6 % standard error, exact up to 256. */
 const HLL_P = 12;
 
@@ -164,9 +169,13 @@ export class HostAcc {
   private inn: ResponderSets | null = null;
   /** Destination ports of failed attempts (scan evidence). */
   failPorts: TopK | null = null;
-  samples: FlowRecord[] = [];
-  /** Sizes of the samples, made with the first sample (most hosts keep none). */
-  private sampleSizes: Float64Array | null = null;
+  /**
+   * Sample flows (the largest few of the window) copied as numbers, made with the first sample (most
+   * hosts keep none): holding the records themselves kept tens of thousands of them alive through
+   * every window, and each young-generation collection copied them.
+   */
+  private sampleData: Float64Array | null = null;
+  private sampleCount = 0;
   /** Index of the smallest sample once all SAMPLE_FLOWS are taken. */
   private smallest = 0;
 
@@ -185,7 +194,7 @@ export class HostAcc {
     this.newPeerTop = -1; this.newPeerTopBytes = 0;
     this.oPeer = -1; this.oDport = -1; this.oSport = -1; this.oCount = 0;
     this.iPeer = -1; this.iPort = -1; this.iCount = 0;
-    this.samples.length = 0;
+    this.sampleCount = 0;
     return this;
   }
 
@@ -216,7 +225,7 @@ export class HostAcc {
     }
     if (r.proto === 6 && (r.flags & 0x12) === 0x02 && r.rpkts === 0) this.synOnlyOut++;
     if (newPair) this.newPeers++;
-    this.sample(r);
+    this.sample(r, peerId, 1);
   }
 
   /** Packets and octets of `r` in this window for its initiator, scaled by `share`. */
@@ -246,7 +255,7 @@ export class HostAcc {
     if (r.outcome === 'rejected' || r.outcome === 'unanswered') this.failedIn++;
     if (r.proto === 6 && (r.flags & 0x12) === 0x02 && (r.rflags & 0x10) === 0) this.synOnlyIn++;
     if (isIcmpUnreachable(r)) this.icmpUnreachIn += r.pkts;
-    this.sample(r);
+    this.sample(r, peerId, 0);
   }
 
   /** Returns true when (peer, dport) was new in this window. */
@@ -294,31 +303,45 @@ export class HostAcc {
     return s;
   }
 
-  private sample(r: FlowRecord): void {
-    // a host's first flow of the window is not kept: most hosts make one flow and never alert, and
-    // holding every record until its window closes would age millions of them into the old heap
+  private sample(r: FlowRecord, peerId: number, hostIsSource: number): void {
+    // a host's first flow of the window is not kept: most hosts make one flow and never alert
     if (this.flowsOut + this.flowsIn < 2) return;
-    const sizes = (this.sampleSizes ??= new Float64Array(SAMPLE_FLOWS));
-    if (this.samples.length < SAMPLE_FLOWS) {
-      sizes[this.samples.length] = size(r);
-      this.samples.push(r);
-      if (this.samples.length === SAMPLE_FLOWS) this.findSmallestSample(sizes);
-      return;
+    const data = (this.sampleData ??= new Float64Array(SAMPLE_FLOWS * SAMPLE_FIELDS));
+    let slot: number;
+    if (this.sampleCount < SAMPLE_FLOWS) {
+      slot = this.sampleCount++;
+    } else {
+      // keep the largest flows beyond the first few: replace the smallest sample
+      if (!(size(r) > sampleSize(data, this.smallest))) return;
+      slot = this.smallest;
     }
-    // keep the largest flows beyond the first few: replace the smallest sample. Sizes are kept beside
-    // the samples, so a busy host's records do not each revisit five old record objects.
-    const sz = size(r);
-    if (sz > sizes[this.smallest]!) {
-      this.samples[this.smallest] = r;
-      sizes[this.smallest] = sz;
-      this.findSmallestSample(sizes);
+    const o = slot * SAMPLE_FIELDS;
+    data[o] = r.start; data[o + 1] = r.proto; data[o + 2] = peerId; data[o + 3] = hostIsSource;
+    data[o + 4] = r.sport; data[o + 5] = r.dport; data[o + 6] = r.pkts; data[o + 7] = r.bytes;
+    data[o + 8] = r.rpkts; data[o + 9] = r.rbytes; data[o + 10] = OUTCOMES.indexOf(r.outcome);
+    if (this.sampleCount === SAMPLE_FLOWS) {
+      let min = 0;
+      for (let i = 1; i < SAMPLE_FLOWS; i++) if (sampleSize(data, i) < sampleSize(data, min)) min = i;
+      this.smallest = min;
     }
   }
 
-  private findSmallestSample(sizes: Float64Array): void {
-    let min = 0;
-    for (let i = 1; i < SAMPLE_FLOWS; i++) if (sizes[i]! < sizes[min]!) min = i;
-    this.smallest = min;
+  /** The window's sample flows, in slot order, with addresses named by `name`. */
+  sampleRecords(name: (id: number) => string): SampleRecord[] {
+    const out: SampleRecord[] = [];
+    const data = this.sampleData;
+    if (!data) return out;
+    for (let i = 0; i < this.sampleCount; i++) {
+      const o = i * SAMPLE_FIELDS;
+      const host = name(this.hostId), peer = name(data[o + 2]!);
+      const hostIsSource = data[o + 3] === 1;
+      out.push({
+        start: data[o]!, proto: data[o + 1]!, src: hostIsSource ? host : peer, dst: hostIsSource ? peer : host,
+        sport: data[o + 4]!, dport: data[o + 5]!, pkts: data[o + 6]!, bytes: data[o + 7]!, rpkts: data[o + 8]!,
+        rbytes: data[o + 9]!, outcome: OUTCOMES[data[o + 10]!]!,
+      });
+    }
+    return out;
   }
 
   /** True when a bounded set or counter of this window filled up (counts past it are estimates). */
@@ -428,6 +451,10 @@ function merged(
 
 function size(r: FlowRecord): number {
   return r.bytes + r.rbytes;
+}
+
+function sampleSize(data: Float64Array, slot: number): number {
+  return data[slot * SAMPLE_FIELDS + 7]! + data[slot * SAMPLE_FIELDS + 9]!;
 }
 
 /** A connection attempt with a known outcome (METHODS 2.4: partial flows do not count in ratios). */
