@@ -72,6 +72,20 @@ describe('EntropyCounter streaming form', () => {
     expect(e.entropy()).toBeCloseTo(again.entropy(), 12);
     expect(e.memoryBytes()).toBe(bytes);
   });
+  it('trim empties and gives back a table grown past the bound, keeps a small one', () => {
+    const e = counterOf(Array.from({ length: 500 }, () => 1));
+    const small = new EntropyCounter().memoryBytes();
+    e.trim(256);
+    expect(e.distinct).toBe(0);
+    expect(e.memoryBytes()).toBe(small);
+    const again = counterOf([4, 2, 1, 1]);
+    [4, 2, 1, 1].forEach((n, k) => e.add(k * 7919, n));
+    expect(e.entropy()).toBeCloseTo(again.entropy(), 12);
+    const kept = counterOf([1, 2, 3]);
+    const bytes = kept.memoryBytes();
+    kept.trim(256);
+    expect(kept.memoryBytes()).toBe(bytes);
+  });
   it('ignores non-positive weights', () => {
     const e = counterOf([3, 1]);
     e.add(99, 0);

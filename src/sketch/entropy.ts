@@ -171,6 +171,19 @@ export class EntropyCounter {
     this.nLogNAt = -1;
   }
 
+  /**
+   * Empties the histogram and, when its table grew past `maxSlots`, gives it back for a small one: a
+   * pool of reused counters then holds at most that much per counter after a busy window.
+   */
+  trim(maxSlots: number): void {
+    this.reset();
+    if (this.mask + 1 <= maxSlots) return;
+    const slots = Math.min(INITIAL_SLOTS, slotsFor(this.maxDistinct));
+    this.cells = new Uint32Array(2 * slots);
+    this.mask = slots - 1;
+    this.used = new Uint32Array(slots >>> 1);
+  }
+
   /** Typed-array bytes held. */
   memoryBytes(): number {
     return this.cells.byteLength + this.used.byteLength;

@@ -24,4 +24,16 @@ describe('IntSet', () => {
       },
     ), { numRuns: 200 });
   });
+
+  it('trim empties and gives back a table grown past the bound', () => {
+    const s = new IntSet();
+    const small = s.memoryBytes();
+    for (let k = 0; k < 1000; k++) s.add(k * 65536 + 443);
+    expect(s.memoryBytes()).toBeGreaterThan(small);
+    s.trim(256);
+    expect(s.size).toBe(0);
+    expect(s.memoryBytes()).toBe(small);
+    expect(s.add(7)).toBe(true);
+    expect(s.has(443)).toBe(false);
+  });
 });

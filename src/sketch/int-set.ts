@@ -47,6 +47,20 @@ export class IntSet {
     this.size = 0;
   }
 
+  /** Empties the set and, when its table grew past `maxSlots`, starts again with a small one. */
+  trim(maxSlots: number): void {
+    this.clear();
+    if (this.mask + 1 <= maxSlots) return;
+    this.keys = new Float64Array(INITIAL_SLOTS).fill(EMPTY);
+    this.mask = INITIAL_SLOTS - 1;
+    this.used = new Uint32Array(INITIAL_SLOTS >>> 1);
+  }
+
+  /** Typed-array bytes held. */
+  memoryBytes(): number {
+    return this.keys.byteLength + this.used.byteLength;
+  }
+
   private grow(): void {
     const old = this.keys, oldUsed = this.used;
     const slots = (this.mask + 1) * 2, mask = slots - 1;

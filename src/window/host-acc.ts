@@ -118,10 +118,11 @@ class InitiatorSets {
     return this.shape;
   }
 
+  /** Empty again for the pool, tables past POOLED_SLOTS given back. */
   reset(): void {
-    this.pairSet.clear(); this.pairHll = null; this.peersHll = null; this.dportsHll = null;
+    this.pairSet.trim(POOLED_SLOTS); this.pairHll = null; this.peersHll = null; this.dportsHll = null;
     this.shape = null; this.portsPerPeer = null; this.peersPerPort = null;
-    this.entDstPorts.reset(); this.entDstAddrs.reset(); this.entSrcPorts.reset();
+    this.entDstPorts.trim(POOLED_SLOTS); this.entDstAddrs.trim(POOLED_SLOTS); this.entSrcPorts.trim(POOLED_SLOTS);
   }
 }
 
@@ -131,15 +132,18 @@ class ResponderSets {
   localPorts = new EntropyCounter();
   sourcesHll: HyperLogLog | null = null;
   reset(): void {
-    this.entSrcAddrs.reset(); this.localPorts.reset(); this.sourcesHll = null;
+    this.entSrcAddrs.trim(POOLED_SLOTS); this.localPorts.trim(POOLED_SLOTS); this.sourcesHll = null;
   }
 }
 
 /**
  * Sets of closed windows, reused by the next windows: typed-array allocation was the window stage's
- * largest cost. Bounded so a burst of busy hosts does not pin memory.
+ * largest cost. Bounded in number, and each pooled set keeps tables of at most POOLED_SLOTS slots
+ * (bigger ones, from a busy host, are given back), so the pool holds at most about
+ * POOL_CAP x 15 KB (120 MB) whatever the traffic was.
  */
-const POOL_CAP = 16384;
+const POOL_CAP = 8192;
+const POOLED_SLOTS = 256;
 const initiatorPool: InitiatorSets[] = [];
 const responderPool: ResponderSets[] = [];
 const topPool: TopK[] = [];
