@@ -1,6 +1,6 @@
 import { ingestInput } from '../ingest/index.js';
-import { ingestOnThread } from '../ingest/threaded.js';
-import { DEFAULT_INGEST, type IngestSummary, type InputFormat } from '../ingest/types.js';
+import { ReadingThread } from '../ingest/threaded.js';
+import { DEFAULT_INGEST, type IngestSummary, type InputFormat, type SourceProgress } from '../ingest/types.js';
 import type { FlowSink } from '../flow/record.js';
 import { formatProblem, type InputProblem } from '../util/problem.js';
 import { rfc3339 } from '../util/time.js';
@@ -47,13 +47,23 @@ export async function runInputs(inputs: readonly string[], sink: FlowSink, o: Ru
     else if (printed === MAX_PRINTED_PROBLEMS) process.stderr.write('tidewatch: further problems are counted in the summary only\n');
     printed++;
   };
-  for (const name of inputs) {
+  const base = { ...DEFAULT_INGEST, windowMs: o.windowMs, maxFlows: o.maxFlows ?? DEFAULT_INGEST.maxFlows, inputFormat: o.inputFormat };
+  const threaded = (name: string) => o.readThread !== false && name !== '-';
+  // one reading thread for the files, in order: it goes on to the next file while this one's last
+  // records are counted, and its compiled decoder stays warm from file to file; stdin is read here
+  let thread: ReadingThread | null = null;
+  let threadIndex = 0;
+  for (let i = 0; i < inputs.length; i++) {
+    const name = inputs[i]!;
+    if (threaded(name) && (thread === null || thread.broken)) {
+      thread = new ReadingThread(inputs.slice(i).filter(threaded), base);
+      threadIndex = 0;
+    }
     try {
-      const ingest = o.readThread !== false && name !== '-' ? ingestOnThread : ingestInput;
-      const s = await ingest(name, sink, {
-        ...DEFAULT_INGEST, windowMs: o.windowMs, maxFlows: o.maxFlows ?? DEFAULT_INGEST.maxFlows, inputFormat: o.inputFormat, onProblem, onFormat: o.onFormat,
-        onSource: (src) => progress.watch(src),
-      });
+      const hooks = { onProblem, onFormat: o.onFormat, onSource: (src: SourceProgress) => progress.watch(src) };
+      const s = threaded(name)
+        ? await thread!.run(threadIndex++, sink, hooks)
+        : await ingestInput(name, sink, { ...base, ...hooks });
       summaries.push(s);
       if (s.stoppedBy && s.stoppedBy.offset === 0 && s.packets === 0 && s.records === 0) unreadable.push(name);
     } catch (e) {

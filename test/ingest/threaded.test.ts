@@ -81,3 +81,26 @@ describe('reading on a second thread (ingestOnThread) gives what ingestInput giv
     await expect(ingestOnThread(inputs[0]!, () => { throw new Error('sink failed'); }, DEFAULT_INGEST)).rejects.toThrow('sink failed');
   });
 });
+
+describe('replay of several inputs: the next file is read ahead (no outside source: same code, one thread)', () => {
+  it('prints the same alert lines and the same summary with and without the reading thread', async () => {
+    const { spawnSync } = await import('node:child_process');
+    const { readFileSync } = await import('node:fs');
+    const cli = join(ROOT, 'dist/src/cli/main.js');
+    const dir = mkdtempSync(join(tmpdir(), 'tw-thread-'));
+    const whole = readFileSync(inputs[0]!);
+    const first = join(dir, 'first.pcap'), cut = join(dir, 'cut.pcap');
+    writeFileSync(first, whole.subarray(0, Math.floor(whole.length * 0.6)));
+    writeFileSync(cut, whole);
+    // a missing file in the middle: reported, and the thread goes on with the next one
+    const args = ['replay', '--format', 'jsonl', first, join(dir, 'missing.pcap'), cut, join(ROOT, 'test/golden/flowlog/ipfix_mixed.ipfix')];
+    const threaded = spawnSync(process.execPath, [cli, ...args], { encoding: 'utf8' });
+    const single = spawnSync(process.execPath, [cli, ...args, '--no-read-thread'], { encoding: 'utf8' });
+    expect(threaded.status).toBe(3);
+    expect(single.status).toBe(3);
+    expect(threaded.stderr).toContain('missing.pcap: cannot open (ENOENT)');
+    expect(threaded.stdout.length).toBeGreaterThan(0);
+    expect(threaded.stdout).toBe(single.stdout);
+    expect(threaded.stderr).toBe(single.stderr);
+  });
+});
