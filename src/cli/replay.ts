@@ -6,7 +6,6 @@ import { addReadThreadOption, addSensorOptions, applyLateness, parseSensorOption
 import { describeInputs, runInputs } from './run-inputs.js';
 import { EXIT_ALERTS, EXIT_INPUT, inputError } from './exit.js';
 import { Progress } from './progress.js';
-import { SensorState } from '../store/session.js';
 import { formatCapCounts } from '../util/caps.js';
 import { inputCapCounts, sensorCapCounts } from './cap-counts.js';
 
@@ -32,7 +31,10 @@ export function register(program: Command): void {
     const progress = new Progress({ quiet: parsed.quiet });
     // alerts printed on the terminal must not land on the progress line
     const emit = (a: Alert) => { progress.clear(); output.emit(a); };
-    const state = raw.state !== undefined ? SensorState.open(raw.state, { showSuppressed: raw.showSuppressed }) : null;
+    // the state store (SQLite, a native module) loads only when a state file is given
+    const state = raw.state !== undefined
+      ? (await import('../store/session.js')).SensorState.open(raw.state, { showSuppressed: raw.showSuppressed })
+      : null;
     const sensor = new Sensor({ ...parsed.sensor, mode: 'replay', latenessMs: parsed.latenessMs ?? 5_000 }, state ? state.emitter(emit) : emit);
     sensor.onWindowClosed = () => output.sync();
     state?.attach(sensor);

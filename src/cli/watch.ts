@@ -5,7 +5,6 @@ import { parseListen } from '../flowlog/collector.js';
 import { ListenError, LiveRun } from '../live/run.js';
 import { loadRules, shippedRulesDir } from '../rules/load.js';
 import { Sensor } from '../sensor/sensor.js';
-import { SensorState } from '../store/session.js';
 import { parseDuration } from '../util/time.js';
 import { AlertOutput } from './alert-output.js';
 import { inputError, usageError } from './exit.js';
@@ -53,7 +52,10 @@ export function register(program: Command): void {
     const flowSources = collector !== undefined || raw.follow.length > 0;
     const latenessMs = parsed.latenessMs ?? (flowSources ? 120_000 : 5_000);
     const output = new AlertOutput({ format: raw.format, out: raw.out, color: raw.color, syslog: raw.syslog, live: true });
-    const state = raw.state !== undefined ? SensorState.open(raw.state, { showSuppressed: raw.showSuppressed }) : null;
+    // the state store (SQLite, a native module) loads only when a state file is given
+    const state = raw.state !== undefined
+      ? (await import('../store/session.js')).SensorState.open(raw.state, { showSuppressed: raw.showSuppressed })
+      : null;
     const emit = (a: Alert) => output.emit(a);
     const sensor = new Sensor({ ...parsed.sensor, mode: 'live', latenessMs }, state ? state.emitter(emit) : emit);
     sensor.aggregator.maxHosts = parsed.maxHosts;
