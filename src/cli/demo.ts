@@ -60,7 +60,7 @@ export function register(program: Command): void {
       }, emit);
       process.stderr.write(`replaying ${dataFile} (inside networks ${truth.inside.join(', ')})\n`);
       const { summaries } = await runInputs([dataFile], sensor.record, {
-        windowMs: 60_000, quiet: false, onFormat: (f) => applyLateness(sensor, f),
+        recordsTransient: true, windowMs: 60_000, quiet: false, onFormat: (f) => applyLateness(sensor, f),
       });
       sensor.finish();
       await output.close();

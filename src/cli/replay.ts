@@ -40,7 +40,7 @@ export function register(program: Command): void {
     state?.attach(sensor);
     sensor.aggregator.maxHosts = parsed.maxHosts;
     const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
-      windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet, readThread: parsed.readThread, progress,
+      recordsTransient: true, windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet, readThread: parsed.readThread, progress,
       onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
     });
     // with state, open episodes continue in the next run instead of closing here

@@ -51,7 +51,7 @@ export function register(program: Command): void {
     const progress = new Progress({ quiet: parsed.quiet });
     const feed: Feed = async (sensor: Sensor) => {
       const { summaries, unreadable } = await runInputs(raw.input, sensor.record, {
-        windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet, readThread: parsed.readThread, progress,
+        recordsTransient: true, windowMs, inputFormat: parsed.inputFormat, quiet: parsed.quiet, readThread: parsed.readThread, progress,
         onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
       });
       if (unreadable.length === raw.input.length) throw inputError(`no readable input (${unreadable.join(', ')})`);

@@ -21,6 +21,8 @@ export interface RunInputsOptions {
    * stdin is always read on this thread.
    */
   readThread?: boolean;
+  /** `sink` keeps none of the records it is given (the sensor's record()): they may share one object. */
+  recordsTransient?: boolean;
   /** Shows reading progress (default: one of our own, silent with `quiet`); pass one to clear it before other output. */
   progress?: Progress;
 }
@@ -62,7 +64,7 @@ export async function runInputs(inputs: readonly string[], sink: FlowSink, o: Ru
     try {
       const hooks = { onProblem, onFormat: o.onFormat, onSource: (src: SourceProgress) => progress.watch(src) };
       const s = threaded(name)
-        ? await thread!.run(threadIndex++, sink, hooks)
+        ? await thread!.run(threadIndex++, sink, { ...hooks, transient: o.recordsTransient })
         : await ingestInput(name, sink, { ...base, ...hooks });
       summaries.push(s);
       if (s.stoppedBy && s.stoppedBy.offset === 0 && s.packets === 0 && s.records === 0) unreadable.push(name);

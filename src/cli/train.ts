@@ -30,7 +30,7 @@ export function register(program: Command): void {
       state.attach(sensor);
       sensor.aggregator.maxHosts = parsed.maxHosts;
       const { summaries, unreadable } = await runInputs(inputs, sensor.record, {
-        windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet, readThread: parsed.readThread,
+        recordsTransient: true, windowMs: parsed.sensor.windowMs, maxFlows: parsed.maxFlows, inputFormat: parsed.inputFormat, quiet: parsed.quiet, readThread: parsed.readThread,
         onFormat: (f) => applyLateness(sensor, f, parsed.latenessMs),
       });
       state.suspend();

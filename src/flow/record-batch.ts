@@ -82,12 +82,25 @@ export class BatchWriter {
 export class BatchReader {
   private table: string[] = [];
 
-  read(b: RecordBatch, sink: (r: FlowRecord) => void): void {
+  /**
+   * Gives the batch's records to `sink` in order. With `reuse`, one record object is filled anew for
+   * each (for a sink that keeps none of them); otherwise each is its own object.
+   */
+  read(b: RecordBatch, sink: (r: FlowRecord) => void, reuse = false): void {
     if (b.reset) this.table = [];
     for (const s of b.strings) this.table.push(s);
     const n = b.numbers, s = this.table;
     for (let i = 0; i < b.count; i++) {
       const o = i * STRIDE;
+      if (reuse) {
+        const r = this.scratch;
+        r.start = n[o]!; r.end = n[o + 1]!; r.proto = n[o + 2]!; r.src = s[n[o + 13]!]!; r.dst = s[n[o + 14]!]!;
+        r.sport = n[o + 3]!; r.dport = n[o + 4]!; r.pkts = n[o + 5]!; r.bytes = n[o + 6]!; r.rpkts = n[o + 7]!; r.rbytes = n[o + 8]!;
+        r.flags = n[o + 9]!; r.rflags = n[o + 10]!; r.outcome = OUTCOMES[n[o + 11]!]!; r.exporter = s[n[o + 15]!]!;
+        r.vlan = n[o + 12]! >= 0 ? n[o + 12]! : undefined;
+        sink(r);
+        continue;
+      }
       const r: FlowRecord = {
         start: n[o]!, end: n[o + 1]!, proto: n[o + 2]!, src: s[n[o + 13]!]!, dst: s[n[o + 14]!]!,
         sport: n[o + 3]!, dport: n[o + 4]!, pkts: n[o + 5]!, bytes: n[o + 6]!, rpkts: n[o + 7]!, rbytes: n[o + 8]!,
@@ -97,4 +110,9 @@ export class BatchReader {
       sink(r);
     }
   }
+
+  private readonly scratch: FlowRecord = {
+    start: 0, end: 0, proto: 0, src: '', dst: '', sport: 0, dport: 0, pkts: 0, bytes: 0, rpkts: 0, rbytes: 0,
+    flags: 0, rflags: 0, outcome: 'n/a', exporter: '', vlan: undefined,
+  };
 }

@@ -50,7 +50,13 @@ export interface ReaderTuning { batchRecords?: number; maxInFlight?: number }
 type ThreadEvent = { kind: 'message'; m: FromReader } | { kind: 'error'; e: Error } | { kind: 'exit'; code: number };
 
 /** Per-input hooks of ReadingThread.run. */
-export type RunHooks = Pick<IngestOptions, 'onFormat' | 'onProblem' | 'onSource'>;
+export type RunHooks = Pick<IngestOptions, 'onFormat' | 'onProblem' | 'onSource'> & {
+  /**
+   * The sink keeps no record it is given (it copies what it needs, as the sensor does): one record
+   * object is then filled anew for each record instead of one made per record.
+   */
+  transient?: boolean;
+};
 
 /**
  * The inputs of a run read on one thread, in order; run(i) takes input i's records. The thread goes
@@ -82,7 +88,7 @@ export class ReadingThread {
 
   /** Takes input `index`'s records into `sink` (inputs in order) and resolves with its summary. */
   run(index: number, sink: FlowSink, hooks: RunHooks = {}): Promise<IngestSummary> {
-    const { onFormat, onProblem, onSource } = hooks;
+    const { onFormat, onProblem, onSource, transient } = hooks;
     const control = this.control, name = this.names[index]!, batches = this.batches;
     let consumed = 0;
     return new Promise((resolve, reject) => {
@@ -103,7 +109,7 @@ export class ReadingThread {
           switch (m.type) {
             case 'records':
               consumed = m.consumed;
-              batches.read(m.batch, sink);
+              batches.read(m.batch, sink, transient === true);
               Atomics.sub(control, 0, 1);
               Atomics.notify(control, 0);
               break;
@@ -145,10 +151,13 @@ export class ReadingThread {
  * order, the same problems reach onProblem (the first FORWARDED_PROBLEMS of them), and the summary is
  * ingestInput's. The reading thread waits when MAX_IN_FLIGHT batches are not taken yet: nothing is
  * dropped and memory does not grow with the input. Rejects with ingestInput's one-line error when the
- * input cannot be opened or recognised. `tuning` (tests) changes the batch size and the batches in flight.
+ * input cannot be opened or recognised. `tuning` (tests) changes the batch size and the batches in flight;
+ * `transient` as in RunHooks.
  */
-export function ingestOnThread(name: string, sink: FlowSink, opts: IngestOptions, tuning: ReaderTuning = {}): Promise<IngestSummary> {
+export function ingestOnThread(
+  name: string, sink: FlowSink, opts: IngestOptions, tuning: ReaderTuning & { transient?: boolean } = {},
+): Promise<IngestSummary> {
   const { onFormat, onProblem, onSource, ...plain } = opts;
   const thread = new ReadingThread([name], plain, tuning);
-  return thread.run(0, sink, { onFormat, onProblem, onSource });
+  return thread.run(0, sink, { onFormat, onProblem, onSource, transient: tuning.transient });
 }

@@ -73,6 +73,10 @@ export class Sensor {
     this.engine.setRules(rules);
   }
 
+  /**
+   * One flow record in. Nothing of `r` is kept past the call (the window stage copies the numbers it
+   * needs, sample flows included), so callers may hand in one object filled anew each time.
+   */
   readonly record = (r: FlowRecord): void => {
     this.aggregator.add(r);
   };

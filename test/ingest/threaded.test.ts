@@ -104,3 +104,28 @@ describe('replay of several inputs: the next file is read ahead (no outside sour
     expect(threaded.stderr).toBe(single.stderr);
   });
 });
+
+describe('the sensor keeps no record it is given (what lets the reading thread reuse one object; no outside source)', () => {
+  it('one object filled anew for every record gives the same alert lines as a fresh object each', async () => {
+    const { Sensor } = await import('../../dist/src/sensor/sensor.js');
+    const { alertToJson } = await import('../../dist/src/alert/serialize.js');
+    const { DEFAULT_INTERNAL } = await import('../../dist/src/util/addr.js');
+    const records: FlowRecord[] = [];
+    await ingestInput(inputs[0]!, (r) => records.push(r), DEFAULT_INGEST);
+    const run = (feed: (sink: (r: FlowRecord) => void) => void) => {
+      const lines: string[] = [];
+      const sensor = new Sensor({ windowMs: 60_000, latenessMs: 5_000, alpha: 0.001, internal: DEFAULT_INTERNAL, sensor: 't', mode: 'replay' },
+        (a) => lines.push(alertToJson(a)));
+      feed(sensor.record);
+      sensor.finish();
+      return lines;
+    };
+    const fresh = run((sink) => { for (const r of records) sink({ ...r }); });
+    const scratch = { ...records[0]! };
+    const reused = run((sink) => {
+      for (const r of records) { Object.assign(scratch, r); if (r.vlan === undefined) scratch.vlan = undefined; sink(scratch); }
+    });
+    expect(fresh.length).toBeGreaterThan(3);
+    expect(reused).toEqual(fresh);
+  });
+});
