@@ -58,6 +58,93 @@ class MaxCount {
   }
 }
 
+/**
+ * Flows of one role as they come, four words an entry (key, key, key, weight), appended in order. A
+ * host-window's histograms are filled from it when they are read, into shared scratch histograms that
+ * stay in cache from host to host: updating each host's own tables per flow cost a cache miss in each
+ * of them, thousands of hosts apart. Past LOG_CAP entries a role counts into its own tables directly.
+ */
+const LOG_CAP = 2048;
+/** Log words kept by a pooled set (bigger logs are given back). */
+const POOLED_LOG_WORDS = 1024;
+class FlowLog {
+  private words = new Uint32Array(4 * 16);
+  length = 0;
+  /** True while flows go to the log, false once the role counts into its own histograms. */
+  logging = true;
+
+  push(a: number, b: number, c: number, n: number): void {
+    const o = 4 * this.length;
+    if (o === this.words.length) {
+      const w = new Uint32Array(2 * o);
+      w.set(this.words);
+      this.words = w;
+    }
+    const w = this.words;
+    w[o] = a; w[o + 1] = b; w[o + 2] = c; w[o + 3] = n;
+    this.length++;
+  }
+
+  /** Hands every entry to `count`, in order. */
+  forEach(count: (a: number, b: number, c: number, n: number) => void): void {
+    const w = this.words;
+    for (let i = 0; i < this.length; i++) count(w[4 * i]!, w[4 * i + 1]!, w[4 * i + 2]!, w[4 * i + 3]!);
+  }
+
+  reset(): void {
+    this.length = 0;
+    this.logging = true;
+    if (this.words.length > POOLED_LOG_WORDS) this.words = new Uint32Array(4 * 16);
+  }
+}
+
+/** An initiator's histograms: destination ports, destination addresses, source ports. */
+class InitiatorCounts {
+  entDstPorts = new EntropyCounter();
+  entDstAddrs = new EntropyCounter();
+  entSrcPorts = new EntropyCounter();
+  peersHll: HyperLogLog | null = null;
+  dportsHll: HyperLogLog | null = null;
+  readonly count = (peer: number, dport: number, sport: number, n: number): void => {
+    this.entDstPorts.add(dport, n);
+    this.entDstAddrs.add(peer, n);
+    this.entSrcPorts.add(sport, n);
+    if (this.peersHll) this.peersHll.add(peer);
+    else if (this.entDstAddrs.saturated) (this.peersHll = spill(this.entDstAddrs)).add(peer);
+    if (this.dportsHll) this.dportsHll.add(dport);
+    else if (this.entDstPorts.saturated) (this.dportsHll = spill(this.entDstPorts)).add(dport);
+  };
+  get saturated(): boolean {
+    return this.entDstPorts.saturated || this.entDstAddrs.saturated || this.entSrcPorts.saturated;
+  }
+  /** Empty again; tables past `maxSlots` given back (0: keep every table, for the scratch). */
+  clear(maxSlots: number): void {
+    for (const h of [this.entDstPorts, this.entDstAddrs, this.entSrcPorts]) { if (maxSlots > 0) h.trim(maxSlots); else h.reset(); }
+    this.peersHll = null; this.dportsHll = null;
+  }
+}
+
+/** A responder's histograms: source addresses, and the local ports it was reached on (evidence). */
+class ResponderCounts {
+  entSrcAddrs = new EntropyCounter();
+  localPorts = new EntropyCounter();
+  sourcesHll: HyperLogLog | null = null;
+  readonly count = (peer: number, port: number, _unused: number, n: number): void => {
+    this.entSrcAddrs.add(peer, n);
+    this.localPorts.add(port, n);
+    if (this.sourcesHll) this.sourcesHll.add(peer);
+    else if (this.entSrcAddrs.saturated) (this.sourcesHll = spill(this.entSrcAddrs)).add(peer);
+  };
+  clear(maxSlots: number): void {
+    for (const h of [this.entSrcAddrs, this.localPorts]) { if (maxSlots > 0) h.trim(maxSlots); else h.reset(); }
+    this.sourcesHll = null;
+  }
+}
+
+/** Shared scratch histograms, filled from one role's log at a time and emptied after. */
+const initiatorScratch = new InitiatorCounts();
+const responderScratch = new ResponderCounts();
+
 /** The largest count of distinct ports per peer and of distinct peers per port, with their keys. */
 interface PairShape { portsPerPeer: TopEntry | undefined; peersPerPort: TopEntry | undefined }
 
@@ -85,11 +172,27 @@ class InitiatorSets {
   private shape: PairShape | null = null;
   portsPerPeer: MaxCount | null = null;
   peersPerPort: MaxCount | null = null;
-  entDstPorts = new EntropyCounter();
-  entDstAddrs = new EntropyCounter();
-  entSrcPorts = new EntropyCounter();
-  peersHll: HyperLogLog | null = null;
-  dportsHll: HyperLogLog | null = null;
+  private readonly own = new InitiatorCounts();
+  private readonly log = new FlowLog();
+
+  /** One flow (or n of the same key) into the log, or into the own histograms once past LOG_CAP. */
+  addFlow(peer: number, dport: number, sport: number, n: number): void {
+    if (!this.log.logging) { this.own.count(peer, dport, sport, n); return; }
+    this.log.push(peer, dport, sport, n);
+    if (this.log.length >= LOG_CAP) { this.log.forEach(this.own.count); this.log.logging = false; }
+  }
+
+  /** Runs fn on the role's histograms with every flow counted (the scratch ones, filled from the log). */
+  counts<T>(fn: (c: InitiatorCounts) => T): T {
+    if (!this.log.logging) return fn(this.own);
+    this.log.forEach(initiatorScratch.count);
+    try { return fn(initiatorScratch); } finally { initiatorScratch.clear(0); }
+  }
+
+  /** A histogram filled up (only possible once counting directly: the log holds fewer keys than that). */
+  get saturated(): boolean {
+    return !this.log.logging && this.own.saturated;
+  }
 
   /** A new (peer, port) pair: counted online once the exact set is full. */
   newPair(peer: number, dport: number): void {
@@ -120,19 +223,34 @@ class InitiatorSets {
 
   /** Empty again for the pool, tables past POOLED_SLOTS given back. */
   reset(): void {
-    this.pairSet.trim(POOLED_SLOTS); this.pairHll = null; this.peersHll = null; this.dportsHll = null;
+    this.pairSet.trim(POOLED_SLOTS); this.pairHll = null;
     this.shape = null; this.portsPerPeer = null; this.peersPerPort = null;
-    this.entDstPorts.trim(POOLED_SLOTS); this.entDstAddrs.trim(POOLED_SLOTS); this.entSrcPorts.trim(POOLED_SLOTS);
+    this.own.clear(POOLED_SLOTS); this.log.reset();
   }
 }
 
 class ResponderSets {
-  entSrcAddrs = new EntropyCounter();
-  /** Local ports the host was reached on, for evidence. */
-  localPorts = new EntropyCounter();
-  sourcesHll: HyperLogLog | null = null;
+  private readonly own = new ResponderCounts();
+  private readonly log = new FlowLog();
+
+  addFlow(peer: number, port: number, n: number): void {
+    if (!this.log.logging) { this.own.count(peer, port, 0, n); return; }
+    this.log.push(peer, port, 0, n);
+    if (this.log.length >= LOG_CAP) { this.log.forEach(this.own.count); this.log.logging = false; }
+  }
+
+  counts<T>(fn: (c: ResponderCounts) => T): T {
+    if (!this.log.logging) return fn(this.own);
+    this.log.forEach(responderScratch.count);
+    try { return fn(responderScratch); } finally { responderScratch.clear(0); }
+  }
+
+  get saturated(): boolean {
+    return !this.log.logging && this.own.entSrcAddrs.saturated;
+  }
+
   reset(): void {
-    this.entSrcAddrs.trim(POOLED_SLOTS); this.localPorts.trim(POOLED_SLOTS); this.sourcesHll = null;
+    this.own.clear(POOLED_SLOTS); this.log.reset();
   }
 }
 
@@ -264,13 +382,7 @@ export class HostAcc {
 
   /** Returns true when (peer, dport) was new in this window. */
   private addOut(s: InitiatorSets, peer: number, dport: number, sport: number, n: number): boolean {
-    s.entDstPorts.add(dport, n);
-    s.entDstAddrs.add(peer, n);
-    s.entSrcPorts.add(sport, n);
-    if (s.peersHll) s.peersHll.add(peer);
-    else if (s.entDstAddrs.saturated) (s.peersHll = spill(s.entDstAddrs)).add(peer);
-    if (s.dportsHll) s.dportsHll.add(dport);
-    else if (s.entDstPorts.saturated) (s.dportsHll = spill(s.entDstPorts)).add(dport);
+    s.addFlow(peer, dport, sport, n);
     const pairKey = peer * 65536 + dport;
     if (s.pairSet.size < PAIR_SET_CAP) {
       if (!s.pairSet.add(pairKey)) return false;
@@ -285,10 +397,7 @@ export class HostAcc {
   }
 
   private addIn(s: ResponderSets, peer: number, port: number, n: number): void {
-    s.entSrcAddrs.add(peer, n);
-    s.localPorts.add(port, n);
-    if (s.sourcesHll) s.sourcesHll.add(peer);
-    else if (s.entSrcAddrs.saturated) (s.sourcesHll = spill(s.entSrcAddrs)).add(peer);
+    s.addFlow(peer, port, n);
   }
 
   private initiatorSets(): InitiatorSets {
@@ -351,8 +460,7 @@ export class HostAcc {
   /** True when a bounded set or counter of this window filled up (counts past it are estimates). */
   get sketchCapped(): boolean {
     const o = this.out, i = this.inn;
-    return (o !== null && (o.pairSet.size >= PAIR_SET_CAP || o.entDstPorts.saturated || o.entDstAddrs.saturated || o.entSrcPorts.saturated))
-      || (i !== null && i.entSrcAddrs.saturated);
+    return (o !== null && (o.pairSet.size >= PAIR_SET_CAP || o.saturated)) || (i !== null && i.saturated);
   }
 
   /**
@@ -374,14 +482,20 @@ export class HostAcc {
     return peers;
   }
 
+  /** Runs fn on both roles' histograms at once (either absent when the role has no sets). */
+  private bothCounts<T>(fn: (o: InitiatorCounts | undefined, i: ResponderCounts | undefined) => T): T {
+    const inner = (o: InitiatorCounts | undefined) => (this.inn ? this.inn.counts((i) => fn(o, i)) : fn(o, undefined));
+    return this.out ? this.out.counts((o) => inner(o)) : inner(undefined);
+  }
+
   /** Top peers over both roles, by flows (exact while the histograms hold every key). */
   topPeers(k: number): TopEntry[] {
-    return merged(k, this.out?.entDstAddrs, this.oPeer, this.out ? 0 : this.oCount, this.inn?.entSrcAddrs, this.iPeer, this.inn ? 0 : this.iCount);
+    return this.bothCounts((o, i) => merged(k, o?.entDstAddrs, this.oPeer, this.out ? 0 : this.oCount, i?.entSrcAddrs, this.iPeer, this.inn ? 0 : this.iCount));
   }
 
   /** Top ports (destination ports as initiator, local ports as responder), by flows. */
   topPorts(k: number): TopEntry[] {
-    return merged(k, this.out?.entDstPorts, this.oDport, this.out ? 0 : this.oCount, this.inn?.localPorts, this.iPort, this.inn ? 0 : this.iCount);
+    return this.bothCounts((o, i) => merged(k, o?.entDstPorts, this.oDport, this.out ? 0 : this.oCount, i?.localPorts, this.iPort, this.inn ? 0 : this.iCount));
   }
 
   /** The peer this host sent to on the most distinct ports, with that count. */
@@ -404,22 +518,26 @@ export class HostAcc {
     out[F.nontcp_bytes_out] = this.nontcpOut; out[F.nontcp_bytes_in] = this.nontcpIn;
     const o = this.out;
     if (o) {
-      out[F.distinct_peers] = distinctOf(o.entDstAddrs, o.peersHll);
-      out[F.distinct_dst_ports] = distinctOf(o.entDstPorts, o.dportsHll);
+      o.counts((c) => {
+        out[F.distinct_peers] = distinctOf(c.entDstAddrs, c.peersHll);
+        out[F.distinct_dst_ports] = distinctOf(c.entDstPorts, c.dportsHll);
+        out[F.entropy_dst_ports] = c.entDstPorts.normalised();
+        out[F.entropy_dst_addrs] = c.entDstAddrs.normalised();
+        out[F.entropy_src_ports] = c.entSrcPorts.normalised();
+      });
       out[F.distinct_peer_ports] = o.pairHll ? o.pairHll.count() : o.pairSet.size;
       const shape = o.pairShape();
       out[F.max_ports_per_peer] = shape.portsPerPeer?.count ?? 0;
       out[F.max_peers_per_port] = shape.peersPerPort?.count ?? 0;
-      out[F.entropy_dst_ports] = o.entDstPorts.normalised();
-      out[F.entropy_dst_addrs] = o.entDstAddrs.normalised();
-      out[F.entropy_src_ports] = o.entSrcPorts.normalised();
     } else if (this.oCount > 0) {
       out[F.distinct_peers] = 1; out[F.distinct_dst_ports] = 1; out[F.distinct_peer_ports] = 1;
       out[F.max_ports_per_peer] = 1; out[F.max_peers_per_port] = 1;
     }
     if (this.inn) {
-      out[F.distinct_sources] = distinctOf(this.inn.entSrcAddrs, this.inn.sourcesHll);
-      out[F.entropy_src_addrs] = this.inn.entSrcAddrs.normalised();
+      this.inn.counts((c) => {
+        out[F.distinct_sources] = distinctOf(c.entSrcAddrs, c.sourcesHll);
+        out[F.entropy_src_addrs] = c.entSrcAddrs.normalised();
+      });
     } else if (this.iCount > 0) {
       out[F.distinct_sources] = 1;
     }
