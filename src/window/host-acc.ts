@@ -145,6 +145,41 @@ class ResponderCounts {
 const initiatorScratch = new InitiatorCounts();
 const responderScratch = new ResponderCounts();
 
+interface Counts {
+  readonly count: (a: number, b: number, c: number, n: number) => void;
+  clear(maxSlots: number): void;
+}
+
+/** One role's histograms behind its flow log (see FlowLog). */
+class LoggedCounts<C extends Counts> {
+  private readonly log = new FlowLog();
+  constructor(private readonly own: C, private readonly scratch: C) {}
+
+  /** One flow (or n of the same keys) into the log, or into the own histograms once past LOG_CAP. */
+  add(a: number, b: number, c: number, n: number): void {
+    if (!this.log.logging) { this.own.count(a, b, c, n); return; }
+    this.log.push(a, b, c, n);
+    if (this.log.length >= LOG_CAP) { this.log.forEach(this.own.count); this.log.logging = false; }
+  }
+
+  /** Runs fn on the histograms with every flow counted (the scratch ones, filled from the log). */
+  with<T>(fn: (c: C) => T): T {
+    if (!this.log.logging) return fn(this.own);
+    this.log.forEach(this.scratch.count);
+    try { return fn(this.scratch); } finally { this.scratch.clear(0); }
+  }
+
+  /** The own histograms once counting directly, else null (a log holds too few keys to fill one). */
+  get direct(): C | null {
+    return this.log.logging ? null : this.own;
+  }
+
+  reset(): void {
+    this.own.clear(POOLED_SLOTS);
+    this.log.reset();
+  }
+}
+
 /** The largest count of distinct ports per peer and of distinct peers per port, with their keys. */
 interface PairShape { portsPerPeer: TopEntry | undefined; peersPerPort: TopEntry | undefined }
 
@@ -172,26 +207,19 @@ class InitiatorSets {
   private shape: PairShape | null = null;
   portsPerPeer: MaxCount | null = null;
   peersPerPort: MaxCount | null = null;
-  private readonly own = new InitiatorCounts();
-  private readonly log = new FlowLog();
+  private readonly hist = new LoggedCounts(new InitiatorCounts(), initiatorScratch);
 
-  /** One flow (or n of the same key) into the log, or into the own histograms once past LOG_CAP. */
   addFlow(peer: number, dport: number, sport: number, n: number): void {
-    if (!this.log.logging) { this.own.count(peer, dport, sport, n); return; }
-    this.log.push(peer, dport, sport, n);
-    if (this.log.length >= LOG_CAP) { this.log.forEach(this.own.count); this.log.logging = false; }
+    this.hist.add(peer, dport, sport, n);
   }
 
-  /** Runs fn on the role's histograms with every flow counted (the scratch ones, filled from the log). */
   counts<T>(fn: (c: InitiatorCounts) => T): T {
-    if (!this.log.logging) return fn(this.own);
-    this.log.forEach(initiatorScratch.count);
-    try { return fn(initiatorScratch); } finally { initiatorScratch.clear(0); }
+    return this.hist.with(fn);
   }
 
-  /** A histogram filled up (only possible once counting directly: the log holds fewer keys than that). */
+  /** A histogram filled up (its counts past that are estimates). */
   get saturated(): boolean {
-    return !this.log.logging && this.own.saturated;
+    return this.hist.direct?.saturated ?? false;
   }
 
   /** A new (peer, port) pair: counted online once the exact set is full. */
@@ -225,32 +253,27 @@ class InitiatorSets {
   reset(): void {
     this.pairSet.trim(POOLED_SLOTS); this.pairHll = null;
     this.shape = null; this.portsPerPeer = null; this.peersPerPort = null;
-    this.own.clear(POOLED_SLOTS); this.log.reset();
+    this.hist.reset();
   }
 }
 
 class ResponderSets {
-  private readonly own = new ResponderCounts();
-  private readonly log = new FlowLog();
+  private readonly hist = new LoggedCounts(new ResponderCounts(), responderScratch);
 
   addFlow(peer: number, port: number, n: number): void {
-    if (!this.log.logging) { this.own.count(peer, port, 0, n); return; }
-    this.log.push(peer, port, 0, n);
-    if (this.log.length >= LOG_CAP) { this.log.forEach(this.own.count); this.log.logging = false; }
+    this.hist.add(peer, port, 0, n);
   }
 
   counts<T>(fn: (c: ResponderCounts) => T): T {
-    if (!this.log.logging) return fn(this.own);
-    this.log.forEach(responderScratch.count);
-    try { return fn(responderScratch); } finally { responderScratch.clear(0); }
+    return this.hist.with(fn);
   }
 
   get saturated(): boolean {
-    return !this.log.logging && this.own.entSrcAddrs.saturated;
+    return this.hist.direct?.entSrcAddrs.saturated ?? false;
   }
 
   reset(): void {
-    this.own.clear(POOLED_SLOTS); this.log.reset();
+    this.hist.reset();
   }
 }
 
