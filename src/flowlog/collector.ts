@@ -19,11 +19,8 @@ export interface CollectorListen {
   netflowUdp?: string;
 }
 
-export interface ExporterStats {
-  /** `ADDR:PORT` of the exporter (IPv6 in brackets). */
-  exporter: string;
-  format: 'ipfix' | 'netflow9';
-  transport: 'udp' | 'tcp';
+/** The counters kept per exporter, and summed over all of them for the collector. */
+export interface ExporterCounts {
   datagrams: number;
   messages: number;
   records: number;
@@ -40,16 +37,14 @@ export interface ExporterStats {
   pendingOverCap: number;
 }
 
-export interface CollectorStats {
-  datagrams: number;
-  messages: number;
-  records: number;
-  flows: number;
-  malformed: number;
-  unknownTemplate: number;
-  sequenceLost: number;
-  templatesOverCap: number;
-  pendingOverCap: number;
+export interface ExporterStats extends ExporterCounts {
+  /** `ADDR:PORT` of the exporter (IPv6 in brackets). */
+  exporter: string;
+  format: 'ipfix' | 'netflow9';
+  transport: 'udp' | 'tcp';
+}
+
+export interface CollectorStats extends ExporterCounts {
   /** Datagrams or connections refused because too many exporters were already known. */
   exportersOverCap: number;
   /** Datagrams dropped unread for being longer than the datagram cap. */
@@ -220,7 +215,7 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
         sequenceLost: c.sequenceLost, templatesOverCap: c.templatesOverCap, pendingOverCap: c.pendingOverCap,
       });
     }
-    const sum = (k: 'datagrams' | 'messages' | 'records' | 'flows' | 'malformed' | 'unknownTemplate' | 'sequenceLost' | 'templatesOverCap' | 'pendingOverCap') =>
+    const sum = (k: keyof ExporterCounts) =>
       list.reduce((a, x) => a + x[k], 0);
     return {
       datagrams: sum('datagrams'), messages: sum('messages'), records: sum('records'), flows: sum('flows'),
