@@ -98,6 +98,12 @@ class FlowLog {
   }
 }
 
+/** Empties a histogram; tables past `maxSlots` are given back (0: keep every table, for the scratch). */
+function clearCounter(h: EntropyCounter, maxSlots: number): void {
+  if (maxSlots > 0) h.trim(maxSlots);
+  else h.reset();
+}
+
 /** An initiator's histograms: destination ports, destination addresses, source ports. */
 class InitiatorCounts {
   entDstPorts = new EntropyCounter();
@@ -117,9 +123,9 @@ class InitiatorCounts {
   get saturated(): boolean {
     return this.entDstPorts.saturated || this.entDstAddrs.saturated || this.entSrcPorts.saturated;
   }
-  /** Empty again; tables past `maxSlots` given back (0: keep every table, for the scratch). */
+  /** Empty again (see clearCounter). */
   clear(maxSlots: number): void {
-    for (const h of [this.entDstPorts, this.entDstAddrs, this.entSrcPorts]) { if (maxSlots > 0) h.trim(maxSlots); else h.reset(); }
+    clearCounter(this.entDstPorts, maxSlots); clearCounter(this.entDstAddrs, maxSlots); clearCounter(this.entSrcPorts, maxSlots);
     this.peersHll = null; this.dportsHll = null;
   }
 }
@@ -136,7 +142,7 @@ class ResponderCounts {
     else if (this.entSrcAddrs.saturated) (this.sourcesHll = spill(this.entSrcAddrs)).add(peer);
   };
   clear(maxSlots: number): void {
-    for (const h of [this.entSrcAddrs, this.localPorts]) { if (maxSlots > 0) h.trim(maxSlots); else h.reset(); }
+    clearCounter(this.entSrcAddrs, maxSlots); clearCounter(this.localPorts, maxSlots);
     this.sourcesHll = null;
   }
 }
