@@ -92,27 +92,23 @@ export class BatchReader {
     const n = b.numbers, s = this.table;
     for (let i = 0; i < b.count; i++) {
       const o = i * STRIDE;
-      if (reuse) {
-        const r = this.scratch;
-        r.start = n[o]!; r.end = n[o + 1]!; r.proto = n[o + 2]!; r.src = s[n[o + 13]!]!; r.dst = s[n[o + 14]!]!;
-        r.sport = n[o + 3]!; r.dport = n[o + 4]!; r.pkts = n[o + 5]!; r.bytes = n[o + 6]!; r.rpkts = n[o + 7]!; r.rbytes = n[o + 8]!;
-        r.flags = n[o + 9]!; r.rflags = n[o + 10]!; r.outcome = OUTCOMES[n[o + 11]!]!; r.exporter = s[n[o + 15]!]!;
-        r.vlan = n[o + 12]! >= 0 ? n[o + 12]! : undefined;
-        sink(r);
-        continue;
-      }
-      const r: FlowRecord = {
-        start: n[o]!, end: n[o + 1]!, proto: n[o + 2]!, src: s[n[o + 13]!]!, dst: s[n[o + 14]!]!,
-        sport: n[o + 3]!, dport: n[o + 4]!, pkts: n[o + 5]!, bytes: n[o + 6]!, rpkts: n[o + 7]!, rbytes: n[o + 8]!,
-        flags: n[o + 9]!, rflags: n[o + 10]!, outcome: OUTCOMES[n[o + 11]!]!, exporter: s[n[o + 15]!]!,
-      };
+      const r = reuse ? this.scratch : blankRecord();
+      r.start = n[o]!; r.end = n[o + 1]!; r.proto = n[o + 2]!; r.src = s[n[o + 13]!]!; r.dst = s[n[o + 14]!]!;
+      r.sport = n[o + 3]!; r.dport = n[o + 4]!; r.pkts = n[o + 5]!; r.bytes = n[o + 6]!; r.rpkts = n[o + 7]!; r.rbytes = n[o + 8]!;
+      r.flags = n[o + 9]!; r.rflags = n[o + 10]!; r.outcome = OUTCOMES[n[o + 11]!]!; r.exporter = s[n[o + 15]!]!;
+      // a fresh record has no vlan field unless the flow had one (as the flow table makes them)
       if (n[o + 12]! >= 0) r.vlan = n[o + 12]!;
+      else if (reuse) r.vlan = undefined;
       sink(r);
     }
   }
 
-  private readonly scratch: FlowRecord = {
+  private readonly scratch: FlowRecord = { ...blankRecord(), vlan: undefined };
+}
+
+function blankRecord(): FlowRecord {
+  return {
     start: 0, end: 0, proto: 0, src: '', dst: '', sport: 0, dport: 0, pkts: 0, bytes: 0, rpkts: 0, rbytes: 0,
-    flags: 0, rflags: 0, outcome: 'n/a', exporter: '', vlan: undefined,
+    flags: 0, rflags: 0, outcome: 'n/a', exporter: '',
   };
 }
