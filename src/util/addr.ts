@@ -69,6 +69,74 @@ function addrBytes(s: string): Uint8Array | null {
   return Uint8Array.from(a.toByteArray());
 }
 
+/**
+ * The 32-bit value of canonical dotted-quad text (four decimal parts 0-255, no leading zeros), or -1
+ * for anything else: other IPv4 spellings (octal, hex, fewer parts) are left to the full parser.
+ */
+export function parseIpv4(s: string): number {
+  let v = 0, part = 0, digits = 0, dots = 0;
+  for (let i = 0; i < s.length; i++) {
+    const c = s.charCodeAt(i);
+    if (c >= 48 && c <= 57) {
+      if (digits > 0 && part === 0) return -1;
+      part = part * 10 + (c - 48);
+      if (part > 255) return -1;
+      digits++;
+    } else if (c === 46) {
+      if (digits === 0 || ++dots > 3) return -1;
+      v = v * 256 + part;
+      part = 0; digits = 0;
+    } else return -1;
+  }
+  if (dots !== 3 || digits === 0) return -1;
+  return v * 256 + part;
+}
+
+/**
+ * Plain IPv6 text (hex groups, at most one `::`) into 16 octets of `out`; false for anything else
+ * (an embedded dotted quad, a zone, a malformed group), which is left to the full parser.
+ */
+export function parseIpv6(s: string, out: Uint8Array): boolean {
+  let groups = 0, gap = -1, group = 0, hex = 0;
+  const n = s.length;
+  let i = 0;
+  if (n >= 2 && s.charCodeAt(0) === 58 && s.charCodeAt(1) === 58) { gap = 0; i = 2; }
+  else if (n > 0 && s.charCodeAt(0) === 58) return false;
+  for (; i < n; i++) {
+    const c = s.charCodeAt(i);
+    let d: number;
+    if (c >= 48 && c <= 57) d = c - 48;
+    else if (c >= 97 && c <= 102) d = c - 87;
+    else if (c >= 65 && c <= 70) d = c - 55;
+    else if (c === 58) {
+      if (hex === 0) return false;
+      if (groups === 8) return false;
+      out[2 * groups] = group >>> 8; out[2 * groups + 1] = group & 255;
+      groups++; group = 0; hex = 0;
+      if (i + 1 < n && s.charCodeAt(i + 1) === 58) {
+        if (gap >= 0) return false;
+        gap = groups;
+        i++;
+      } else if (i + 1 === n) return false;
+      continue;
+    } else return false;
+    if (++hex > 4) return false;
+    group = (group << 4) | d;
+  }
+  if (hex > 0) {
+    if (groups === 8) return false;
+    out[2 * groups] = group >>> 8; out[2 * groups + 1] = group & 255;
+    groups++;
+  }
+  if (gap < 0) return groups === 8;
+  if (groups > 7) return false;
+  // move the groups after the gap to the end and zero the gap
+  const shift = 8 - groups;
+  for (let g = groups - 1; g >= gap; g--) { out[2 * (g + shift)] = out[2 * g]!; out[2 * (g + shift) + 1] = out[2 * g + 1]!; }
+  for (let g = gap; g < gap + shift; g++) { out[2 * g] = 0; out[2 * g + 1] = 0; }
+  return true;
+}
+
 function inCidr(b: Uint8Array, c: Cidr): boolean {
   if (b.length !== c.bytes.length) return false;
   let bits = c.bits;
@@ -83,11 +151,16 @@ function inCidr(b: Uint8Array, c: Cidr): boolean {
 export const DEFAULT_INTERNAL = ['10.0.0.0/8', '172.16.0.0/12', '192.168.0.0/16', 'fc00::/7', '127.0.0.0/8', '::1/128'];
 
 /**
- * A set of CIDRs with a membership test by address text. Callers on a hot path ask once per address
- * and keep the answer (window/aggregator.ts keeps it per interned address id).
+ * A set of CIDRs with a membership test by address text. Canonical IPv4 and plain IPv6 text (what
+ * flow records carry) is parsed here directly; other spellings go through ipaddr.js. Callers on a hot
+ * path still ask once per address and keep the answer (window/aggregator.ts keeps it per address id).
  */
 export class CidrSet {
   readonly cidrs: Cidr[];
+  /** IPv4 networks as (network, mask) pairs of 32-bit values. */
+  private readonly v4: Uint32Array;
+  private readonly v6: Cidr[];
+  private readonly scratch = new Uint8Array(16);
   constructor(list: readonly string[]) {
     this.cidrs = [];
     for (const s of list) {
@@ -95,10 +168,34 @@ export class CidrSet {
       if (!c) throw new Error(`not a CIDR: ${s}`);
       this.cidrs.push(c);
     }
+    const v4 = this.cidrs.filter((c) => !c.v6);
+    this.v4 = new Uint32Array(2 * v4.length);
+    v4.forEach((c, i) => {
+      const mask = c.bits === 0 ? 0 : (0xffffffff << (32 - c.bits)) >>> 0;
+      const net = ((c.bytes[0]! << 24) | (c.bytes[1]! << 16) | (c.bytes[2]! << 8) | c.bytes[3]!) >>> 0;
+      this.v4[2 * i] = (net & mask) >>> 0;
+      this.v4[2 * i + 1] = mask;
+    });
+    this.v6 = this.cidrs.filter((c) => c.v6);
   }
   has(addr: string): boolean {
-    const b = addrBytes(addr);
-    return b !== null && this.cidrs.some((c) => inCidr(b, c));
+    const a4 = parseIpv4(addr);
+    if (a4 >= 0) return this.hasV4(a4);
+    const b = this.scratch;
+    if (parseIpv6(addr, b)) {
+      let mapped = b[10] === 0xff && b[11] === 0xff;
+      for (let i = 0; i < 10 && mapped; i++) if (b[i] !== 0) mapped = false;
+      if (mapped) return this.hasV4(((b[12]! << 24) | (b[13]! << 16) | (b[14]! << 8) | b[15]!) >>> 0);
+      for (const c of this.v6) if (inCidr(b, c)) return true;
+      return false;
+    }
+    const full = addrBytes(addr);
+    return full !== null && this.cidrs.some((c) => inCidr(full, c));
+  }
+  private hasV4(a: number): boolean {
+    const t = this.v4;
+    for (let i = 0; i < t.length; i += 2) if (((a & t[i + 1]!) >>> 0) === t[i]) return true;
+    return false;
   }
 }
 
