@@ -1,7 +1,8 @@
 /**
  * One measured run in a fresh process, so peak RSS is the run's own: `flows FILE` (capture ingest:
  * reader, decoder, flow table, every record encoded as a JSON line as `tidewatch flows` does, the
- * chunks dropped) or `pcap-parser FILE` (the npm pcap-parser's packet loop, counting packets only). Prints one JSON line.
+ * chunks dropped), `pcap-parser FILE` (the npm pcap-parser's packet loop, counting packets only) or
+ * `plain-loop FILE` (plain-loop.ts: the least work that counts bidirectional flows). Prints one JSON line.
  */
 import { once } from 'node:events';
 import type { EventEmitter } from 'node:events';
@@ -15,6 +16,7 @@ import { DEFAULT_INGEST } from '../../src/ingest/types.js';
 import { Sensor } from '../../src/sensor/sensor.js';
 import { alertToJson } from '../../src/alert/serialize.js';
 import { DEFAULT_INTERNAL } from '../../src/util/addr.js';
+import { plainLoop } from './plain-loop.js';
 
 const [mode, file] = process.argv.slice(2);
 
@@ -96,7 +98,15 @@ function hosts(count: number) {
   return { packets: records, hosts: sensor.aggregator.addresses.size, ms, cpuMs: cpuSince(c) };
 }
 
+function plain(path: string) {
+  const t = process.hrtime.bigint(), c = process.cpuUsage();
+  const r = plainLoop(path);
+  const ms = Number(process.hrtime.bigint() - t) / 1e6;
+  return { packets: r.packets, distinctFlows: r.flows, ms, cpuMs: cpuSince(c) };
+}
+
 const result = mode === 'flows' ? await flows(file!)
+  : mode === 'plain-loop' ? plain(file!)
   : mode === 'replay' ? await replay(file!, true)
   : mode === 'replay-main' ? await replay(file!, false)
   : mode === 'hosts' ? hosts(Number(file))

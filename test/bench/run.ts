@@ -82,6 +82,7 @@ export const benches: Bench[] = [
   { name: 'capture -> flows (decode, flow table, JSON lines)', input: 'capture', run: (f) => child('flows', f), target: { perSecond: 3.5e6, vsPcapParser: 5, maxRssMB: 300 } },
   ...(existsSync(TIME) ? [{ name: 'tidewatch flows CLI > /dev/null (whole process)', input: 'capture' as const, run: (f: string) => cli(f, packets) }] : []),
   { name: 'pcap-parser packet loop (npm, count only)', input: 'capture', run: (f) => child('pcap-parser', f) },
+  { name: 'plain loop: framing, IP, ports, bidirectional counts (plain-loop.ts, no output)', input: 'capture', run: (f) => child('plain-loop', f) },
   { name: 'replay: capture -> alerts (reading thread + detectors, as replay runs)', input: 'capture', run: (f) => child('replay', f), target: { perSecond: 2e6, vsPcapParser: 3, maxRssMB: 600 } },
   { name: 'replay --no-read-thread (one thread)', input: 'capture', run: (f) => child('replay-main', f) },
   { name: 'replay host scaling: 1 M distinct hosts x 3 windows (records)', input: 'own', run: () => child('hosts', '1000000'), target: { maxRssMB: 1500 } },
@@ -135,6 +136,7 @@ try {
     + '         IPFIX decode >= 2 M records/s, peak RSS <= 300 MB; watch over loopback UDP >= 200 k records/s\n');
   process.stdout.write('seconds = wall time (in the child, startup excluded, except for the whole-process CLI row); CPU s = user + system time of the child;\n'
     + 'vs pcap-parser compares packets per wall second, CPU vs pcap-parser packets per CPU second (both children read the same file);\n'
+    + 'the plain loop is the least work that counts bidirectional flows (DESIGN.md section 9: about 5.4 M packets/s), a ceiling for the capture rows;\n'
     + `the machine is shared, so compare rows of one run rather than runs${repeat > 1 ? ` (fastest of ${repeat} runs each)` : ''}.\n`);
 } finally {
   if (!args.includes('--keep')) rmSync(dir, { recursive: true, force: true });
