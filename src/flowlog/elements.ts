@@ -15,18 +15,30 @@ export enum Kind {
   EndSysUp, StartSysUp, IcmpTypeCode, IcmpType, IcmpCode, Vlan,
   StartSec, EndSec, StartMs, EndMs, StartNtp, EndNtp, SysInitMs,
   RevOctets, RevPackets, RevFlags, BiflowDirection,
+  ObsSec, ObsMs, ObsNtp, FirewallEvent,
 }
 
 /** What a field needs from its length to be read as its kind. */
 const enum Shape { Uint, Ipv4, Ipv6, Ntp }
 
-interface Element { kind: Kind; shape: Shape }
+/**
+ * `rank` orders elements that fill the same FlowRecord field (lower wins when a template carries
+ * several): delta counters before initiator/responder counters before running totals; vlanId before
+ * dot1qVlanId.
+ */
+interface Element { kind: Kind; shape: Shape; rank?: number }
 
 const U = Shape.Uint;
 /** IANA element id -> kind, for enterprise 0 (ids 1-127 also serve NetFlow v9 field types). */
 const IANA = new Map<number, Element>([
   [1, { kind: Kind.Octets, shape: U }],          // octetDeltaCount
   [2, { kind: Kind.Packets, shape: U }],         // packetDeltaCount
+  [85, { kind: Kind.Octets, shape: U, rank: 2 }],  // octetTotalCount (v9 IN_PERMANENT_BYTES)
+  [86, { kind: Kind.Packets, shape: U, rank: 2 }], // packetTotalCount (v9 IN_PERMANENT_PKTS)
+  [231, { kind: Kind.Octets, shape: U, rank: 1 }],     // initiatorOctets
+  [232, { kind: Kind.RevOctets, shape: U, rank: 1 }],  // responderOctets
+  [298, { kind: Kind.Packets, shape: U, rank: 1 }],    // initiatorPackets
+  [299, { kind: Kind.RevPackets, shape: U, rank: 1 }], // responderPackets
   [4, { kind: Kind.Proto, shape: U }],           // protocolIdentifier
   [6, { kind: Kind.Flags, shape: U }],           // tcpControlBits (8 or 16 bits, METHODS 3.6)
   [7, { kind: Kind.Sport, shape: U }],           // sourceTransportPort
@@ -39,6 +51,7 @@ const IANA = new Map<number, Element>([
   [28, { kind: Kind.Dst6, shape: Shape.Ipv6 }],  // destinationIPv6Address
   [32, { kind: Kind.IcmpTypeCode, shape: U }],   // icmpTypeCodeIPv4
   [58, { kind: Kind.Vlan, shape: U }],           // vlanId
+  [243, { kind: Kind.Vlan, shape: U, rank: 1 }], // dot1qVlanId
   [139, { kind: Kind.IcmpTypeCode, shape: U }],  // icmpTypeCodeIPv6
   [150, { kind: Kind.StartSec, shape: U }],      // flowStartSeconds
   [151, { kind: Kind.EndSec, shape: U }],        // flowEndSeconds
@@ -53,7 +66,12 @@ const IANA = new Map<number, Element>([
   [177, { kind: Kind.IcmpCode, shape: U }],      // icmpCodeIPv4
   [178, { kind: Kind.IcmpType, shape: U }],      // icmpTypeIPv6
   [179, { kind: Kind.IcmpCode, shape: U }],      // icmpCodeIPv6
+  [233, { kind: Kind.FirewallEvent, shape: U }], // firewallEvent
   [239, { kind: Kind.BiflowDirection, shape: U }], // biflowDirection
+  [322, { kind: Kind.ObsSec, shape: U }],        // observationTimeSeconds
+  [323, { kind: Kind.ObsMs, shape: U }],         // observationTimeMilliseconds
+  [324, { kind: Kind.ObsNtp, shape: Shape.Ntp }], // observationTimeMicroseconds
+  [325, { kind: Kind.ObsNtp, shape: Shape.Ntp }], // observationTimeNanoseconds
 ]);
 
 /** RFC 5103 reverse elements: same ids under PEN 29305. */
@@ -61,6 +79,8 @@ const REVERSE = new Map<number, Element>([
   [1, { kind: Kind.RevOctets, shape: U }],  // reverseOctetDeltaCount
   [2, { kind: Kind.RevPackets, shape: U }], // reversePacketDeltaCount
   [6, { kind: Kind.RevFlags, shape: U }],   // reverseTcpControlBits
+  [85, { kind: Kind.RevOctets, shape: U, rank: 2 }],  // reverseOctetTotalCount
+  [86, { kind: Kind.RevPackets, shape: U, rank: 2 }], // reversePacketTotalCount
 ]);
 
 /** Variable-length marker in a Field Specifier (RFC 7011 section 7; METHODS.md 3.4). */
@@ -72,7 +92,7 @@ export const VARLEN = 0xffff;
  * template never misreads; reduced-size integers (1..8 octets) are read at the template's length.
  */
 export function kindOf(pen: number, id: number, len: number): Kind {
-  const e = pen === 0 ? IANA.get(id) : pen === REVERSE_PEN ? REVERSE.get(id) : undefined;
+  const e = element(pen, id);
   if (!e) return Kind.Skip;
   switch (e.shape) {
     case Shape.Uint: return len >= 1 && len <= 8 ? e.kind : Kind.Skip;
@@ -80,6 +100,15 @@ export function kindOf(pen: number, id: number, len: number): Kind {
     case Shape.Ipv6: return len === 16 ? e.kind : Kind.Skip;
     case Shape.Ntp: return len === 8 ? e.kind : Kind.Skip;
   }
+}
+
+function element(pen: number, id: number): Element | undefined {
+  return pen === 0 ? IANA.get(id) : pen === REVERSE_PEN ? REVERSE.get(id) : undefined;
+}
+
+/** Precedence of (enterprise, id) among the elements of its kind: 0 first (see `Element.rank`). */
+export function rankOf(pen: number, id: number): number {
+  return element(pen, id)?.rank ?? 0;
 }
 
 export function isReverseKind(k: Kind): boolean {

@@ -193,4 +193,56 @@ describe('hostile IPFIX input: nothing throws, each is counted and reported with
     expect(summary.truncated).toBe(true);
     expect(problems.map((p) => [p.reason, p.offset])).toEqual([['truncated', good.length]]);
   });
+
+  describe('counters, times and events real exporters send instead of the delta counters', () => {
+    // Element ids and meanings: IANA "IPFIX Information Elements" registry (RFC 7012): 85/86
+    // octet/packetTotalCount, 231/232 initiator/responderOctets, 298/299 initiator/responderPackets,
+    // 243 dot1qVlanId, 233 firewallEvent (value 3 = flow denied), 322-325 observationTime*.
+    const one = (fields: readonly (readonly number[])[], values: Uint8Array, proto = 17) => {
+      const t = ipfixSet(2, templateRecord(400, [[8, 4], [12, 4], [7, 2], [11, 2], [4, 1], ...fields]));
+      const d = ipfixSet(400, concat(new Wire().ip4('192.0.2.1').ip4('198.51.100.9').u16(50000).u16(53).u8(proto).bytes(), values));
+      const { recs, problems, feed } = decoder();
+      feed(ipfixMessage(1, 0, 1_700_000_000, t, d));
+      expect(problems).toEqual([]);
+      expect(recs).toHaveLength(1);
+      return recs[0]!;
+    };
+
+    it('running totals (85/86, and RFC 5103 reverse totals) stand in for absent delta counters', () => {
+      const r = one([[85, 8], [86, 4], [85, 4, 29305], [86, 4, 29305]], new Wire().u64(4200).u32(7).u32(900).u32(3).bytes());
+      // reverse elements make it a biflow: UDP with packets back is established (docs/flow-inputs.md)
+      expect(r).toMatchObject({ bytes: 4200, pkts: 7, rbytes: 900, rpkts: 3, outcome: 'established' });
+    });
+
+    it('a delta counter wins over a total in the same template, whatever the field order', () => {
+      const r = one([[85, 4], [1, 4], [86, 4], [2, 4]], new Wire().u32(99_999).u32(1500).u32(777).u32(5).bytes());
+      expect(r).toMatchObject({ bytes: 1500, pkts: 5 });
+    });
+
+    it('initiator/responder counters (231, 232, 298, 299) fill both directions', () => {
+      const r = one([[231, 8], [232, 8], [298, 4], [299, 4]], new Wire().u64(640).u64(12_000).u32(8).u32(10).bytes());
+      expect(r).toMatchObject({ bytes: 640, rbytes: 12_000, pkts: 8, rpkts: 10, outcome: 'established' });
+    });
+
+    it('observation time (323) dates a record without flow times; flow times win when present', () => {
+      const obs = one([[323, 8], [1, 4]], new Wire().u64(1_700_000_123_456).u32(60).bytes());
+      expect(obs).toMatchObject({ start: 1_700_000_123_456, end: 1_700_000_123_456 });
+      const both = one([[323, 8], [152, 8]], new Wire().u64(1_700_000_123_456).u64(1_700_000_100_000).bytes());
+      expect(both).toMatchObject({ start: 1_700_000_100_000, end: 1_700_000_100_000 });
+      const secs = one([[322, 4]], new Wire().u32(1_700_000_200).bytes());
+      expect(secs.start).toBe(1_700_000_200_000);
+    });
+
+    it('a firewall "flow denied" event (233 = 3) is a rejected flow', () => {
+      const denied = one([[233, 1], [6, 1]], new Wire().u8(3).u8(0x02).bytes(), 6);
+      expect(denied.outcome).toBe('rejected');
+      const deleted = one([[233, 1], [6, 1]], new Wire().u8(2).u8(0x02).bytes(), 6);
+      expect(deleted.outcome).toBe('unanswered');
+    });
+
+    it('dot1qVlanId (243) gives the VLAN when vlanId (58) is absent; 58 wins when both come', () => {
+      expect(one([[243, 2]], new Wire().u16(60).bytes()).vlan).toBe(60);
+      expect(one([[243, 2], [58, 2]], new Wire().u16(60).u16(61).bytes()).vlan).toBe(61);
+    });
+  });
 });

@@ -54,4 +54,18 @@ describe('NetFlow v9 (RFC 3954)', () => {
     expect(recs).toHaveLength(2);
     expect(problems.map((p) => [p.reason, p.offset])).toEqual([['bad-header', good.length], ['set-overrun', 2 * good.length + junk.length + 20]]);
   });
+
+  it('firewall-style templates: initiator/responder bytes (231/232), event time (323), denied event (233)', () => {
+    // v9 field types above 127 follow the IANA IPFIX numbering (RFC 3954 section 8 leaves them to the
+    // vendor; the firewall exporters seen use the IANA ids: from memory)
+    const t = flowset(0, new Wire().u16(260).u16(8)
+      .u16(8).u16(4).u16(12).u16(4).u16(4).u16(1).u16(7).u16(2).u16(11).u16(2)
+      .u16(231).u16(4).u16(232).u16(4).u16(323).u16(8).bytes());
+    const rec = new Wire().ip4('192.0.2.7').ip4('198.51.100.3').u8(6).u16(51000).u16(22).u32(300).u32(5000).u64(1_700_000_555_000).bytes();
+    const got: { bytes: number; rbytes: number; start: number }[] = [];
+    const dec = new NetflowV9Decoder('t', 't', (r) => got.push(r));
+    const p = packet(0, 1, 1_700_000_600, t, flowset(260, rec));
+    dec.decodePacket(p, 0, p.length, 0);
+    expect(got).toEqual([expect.objectContaining({ bytes: 300, rbytes: 5000, start: 1_700_000_555_000 })]);
+  });
 });

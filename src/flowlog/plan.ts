@@ -1,4 +1,4 @@
-import { Kind, VARLEN, isReverseKind, kindOf } from './elements.js';
+import { Kind, VARLEN, isReverseKind, kindOf, rankOf } from './elements.js';
 
 /**
  * A template compiled once into typed arrays (field kind, field length), so every data record is
@@ -49,6 +49,19 @@ export class DecodePlan {
       if (k === Kind.Flags) hasFlags = true;
       if (k === Kind.RevFlags) hasRevFlags = true;
       if (k !== Kind.Skip) mapped++;
+    }
+    // several elements for one field (octetDeltaCount and octetTotalCount, vlanId and dot1qVlanId):
+    // the best-ranked one is read, the others skipped, whatever their order in the template
+    const best = new Map<Kind, number>();
+    for (let i = 0; i < n; i++) {
+      const k = this.kinds[i]!;
+      if (k === Kind.Skip) continue;
+      const r = rankOf(pens[i]!, ids[i]!);
+      best.set(k, Math.min(best.get(k) ?? r, r));
+    }
+    for (let i = 0; i < n; i++) {
+      const k = this.kinds[i]!;
+      if (k !== Kind.Skip && rankOf(pens[i]!, ids[i]!) !== best.get(k)) { this.kinds[i] = Kind.Skip; mapped--; }
     }
     this.minLen = min;
     this.hasVar = hasVar;

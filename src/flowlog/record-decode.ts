@@ -25,6 +25,12 @@ export class RecordScratch {
   startUp = -1; endUp = -1;
   sysInitMs = NaN;
   biflowDirection = 0;
+  /** observationTime* (322-325) as epoch ms; NaN when absent. */
+  obsMs = NaN;
+  /** Which observation time filled obsMs: 0 milliseconds, 1 micro/nanoseconds, 2 seconds, 3 none. */
+  obsRank = 3;
+  /** firewallEvent (233); 0 when absent. */
+  firewallEvent = 0;
 
   reset(): void {
     this.octets = 0; this.packets = 0; this.rOctets = 0; this.rPackets = 0;
@@ -39,6 +45,9 @@ export class RecordScratch {
     this.startUp = -1; this.endUp = -1;
     this.sysInitMs = NaN;
     this.biflowDirection = 0;
+    this.obsMs = NaN;
+    this.obsRank = 3;
+    this.firewallEvent = 0;
   }
 }
 
@@ -113,6 +122,11 @@ export function decodeRecord(plan: DecodePlan, b: Uint8Array, off: number, end: 
       case Kind.RevPackets: s.rPackets = readUint(b, p, len); break;
       case Kind.RevFlags: s.rflags = b[p + len - 1]!; break;
       case Kind.BiflowDirection: s.biflowDirection = b[p + len - 1]!; break;
+      // the same precedence as the flow times: milliseconds > micro/nanoseconds > seconds
+      case Kind.ObsMs: s.obsMs = readUint(b, p, len); s.obsRank = 0; break;
+      case Kind.ObsNtp: if (s.obsRank > 1) { s.obsMs = ntpToMs(b, p); s.obsRank = 1; } break;
+      case Kind.ObsSec: if (s.obsRank > 2) { s.obsMs = readUint(b, p, len) * 1000; s.obsRank = 2; } break;
+      case Kind.FirewallEvent: s.firewallEvent = b[p + len - 1]!; break;
     }
     p += len;
   }

@@ -13,6 +13,9 @@ const ALIASES: Record<string, string> = {
   sourceTransportPort: 'sport', destinationTransportPort: 'dport',
   packetDeltaCount: 'pkts', octetDeltaCount: 'bytes',
   reversePacketDeltaCount: 'rpkts', reverseOctetDeltaCount: 'rbytes',
+  initiatorPackets: 'pkts', initiatorOctets: 'bytes', responderPackets: 'rpkts', responderOctets: 'rbytes',
+  // running totals count only when the row has no delta (or initiator/responder) counter
+  packetTotalCount: 'pkts~', octetTotalCount: 'bytes~', reversePacketTotalCount: 'rpkts~', reverseOctetTotalCount: 'rbytes~',
   tcpControlBits: 'flags', reverseTcpControlBits: 'rflags',
   vlanId: 'vlan',
   icmpTypeCodeIPv4: 'icmpTypeCode', icmpTypeCodeIPv6: 'icmpTypeCode',
@@ -55,6 +58,7 @@ function count(row: Record<string, unknown>, k: string): number | string {
  * one. `exporter` is used unless the row names its own.
  */
 export function rowToFlow(row: Record<string, unknown>, exporter: string): FlowRecord | string {
+  for (const k of ['pkts', 'bytes', 'rpkts', 'rbytes']) if (!present(row[k]) && present(row[`${k}~`])) row[k] = row[`${k}~`];
   const src = typeof row['src'] === 'string' ? normaliseAddress(row['src'].trim()) : null;
   if (!src) return present(row['src']) ? `src ${JSON.stringify(row['src'])} is not an address` : 'src missing';
   const dst = typeof row['dst'] === 'string' ? normaliseAddress(row['dst'].trim()) : null;

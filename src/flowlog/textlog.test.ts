@@ -62,4 +62,19 @@ describe('JSON Lines flow logs', () => {
     // RST from the responder -> rejected (docs/flow-inputs.md outcome rules, ours)
     expect(recs[1]).toMatchObject({ start: 1_700_000_000_000, src: '2001:db8::a', rpkts: 1, rflags: 0x14, outcome: 'rejected', vlan: 7 });
   });
+
+  it('initiator/responder counters and running totals by their IPFIX names (IANA registry: 231, 232, 298, 299, 85, 86)', async () => {
+    const base = { flowStartMilliseconds: 1_700_000_000_000, protocolIdentifier: 17, sourceIPv4Address: '192.0.2.1', destinationIPv4Address: '192.0.2.53' };
+    const lines = [
+      JSON.stringify({ ...base, initiatorPackets: 2, initiatorOctets: 150, responderPackets: 1, responderOctets: 300 }),
+      JSON.stringify({ ...base, packetTotalCount: 9, octetTotalCount: 900 }),
+      // a delta counter wins over a total, in either column order
+      JSON.stringify({ ...base, octetTotalCount: 99_999, octetDeltaCount: 120, packetDeltaCount: 1 }),
+    ].join('\n');
+    const { recs, problems } = await runIngest(ingestJsonl, enc(lines));
+    expect(problems).toEqual([]);
+    expect(recs[0]).toMatchObject({ pkts: 2, bytes: 150, rpkts: 1, rbytes: 300, outcome: 'established' });
+    expect(recs[1]).toMatchObject({ pkts: 9, bytes: 900, outcome: 'n/a' });
+    expect(recs[2]).toMatchObject({ pkts: 1, bytes: 120 });
+  });
 });

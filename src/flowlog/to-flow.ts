@@ -16,6 +16,8 @@ export interface TimeContext {
 
 /** biflowDirection 2 = reverseInitiator: the record's "source" is the responder (RFC 5103; METHODS 3.6). */
 const REVERSE_INITIATOR = 2;
+/** firewallEvent 3 = flow denied (IANA "IPFIX Information Elements", firewallEvent value registry). */
+const FLOW_DENIED = 3;
 
 /**
  * One side's time by precedence (METHODS.md 3.6): milliseconds > micro/nanoseconds > seconds >
@@ -34,8 +36,8 @@ function sideTime(ms: number, ntpMs: number, sec: number, up: number, s: RecordS
 
 /**
  * Turns a decoded data record into a FlowRecord; null when it names no source or destination
- * address (such records describe something other than a flow). When the record carries no time at
- * all, the message's export time stands for both ends.
+ * address (such records describe something other than a flow). When the record carries no flow time
+ * at all, its observation time (322-325), else the message's export time, stands for both ends.
  */
 export function toFlowRecord(
   s: RecordScratch, plan: DecodePlan, ctx: TimeContext, b: Uint8Array, texts: AddressTexts, exporter: string,
@@ -43,7 +45,7 @@ export function toFlowRecord(
   if (s.srcFamily === 0 || s.dstFamily === 0) return null;
   let start = sideTime(s.startMs, s.startNtpMs, s.startSec, s.startUp, s, ctx);
   let end = sideTime(s.endMs, s.endNtpMs, s.endSec, s.endUp, s, ctx);
-  if (start !== start) start = end === end ? end : ctx.exportMs;
+  if (start !== start) start = end === end ? end : s.obsMs === s.obsMs ? s.obsMs : ctx.exportMs;
   if (end !== end) end = start;
 
   let src = s.srcFamily === 4 ? texts.v4(s.src4) : texts.v6(b, s.src6);
@@ -67,7 +69,8 @@ export function toFlowRecord(
     t = flags; flags = rflags; rflags = t;
     const h = hasFlags; hasFlags = hasRevFlags; hasRevFlags = h;
   }
-  const outcome = exportedOutcome(proto, flags, rflags, rpkts, plan.biflow, hasFlags, hasRevFlags);
+  // a firewall's denial is a refusal whatever the counters say
+  const outcome = s.firewallEvent === FLOW_DENIED ? 'rejected' : exportedOutcome(proto, flags, rflags, rpkts, plan.biflow, hasFlags, hasRevFlags);
   const rec: FlowRecord = {
     start, end, proto, src, dst, sport, dport, pkts, bytes, rpkts, rbytes, flags, rflags, outcome, exporter,
   };
