@@ -1,3 +1,4 @@
+import { looksLikeExportCapture } from '../ingest/hints.js';
 import { ingestInput } from '../ingest/index.js';
 import { ReadingThread } from '../ingest/threaded.js';
 import { DEFAULT_INGEST, type IngestSummary, type InputFormat, type SourceProgress } from '../ingest/types.js';
@@ -84,10 +85,12 @@ export function describeInputs(summaries: readonly IngestSummary[]): string[] {
   const lines: string[] = [];
   for (const s of summaries) {
     const span = Number.isFinite(s.firstMs) ? `${rfc3339(s.firstMs)} .. ${rfc3339(s.lastMs)}` : 'no data';
-    const unit = s.format === 'pcap' || s.format === 'pcapng' ? `${s.packets} packets` : `${s.records} records`;
+    const unit = s.format === 'pcap' || s.format === 'pcapng' ? `${s.packets} packets`
+      : s.format === 'export-capture' ? `${s.packets} packets, ${s.records} records` : `${s.records} records`;
     lines.push(`${s.file} (${s.format}): ${unit}, ${s.bytes} bytes, ${s.flows} flows, ${span}${s.truncated ? ', TRUNCATED' : ''}`);
     const probs = Object.entries(s.problemCounts).filter(([, n]) => n > 0);
     if (probs.length > 0) lines.push(`  problems: ${probs.map(([k, n]) => `${k}=${n}`).join(', ')}`);
+    if (looksLikeExportCapture(s)) lines.push(`  hint: most packets are IPFIX or NetFlow v9 export datagrams; --input-format export-capture reads the flows they carry`);
   }
   return lines.map(escapeControls);
 }

@@ -91,6 +91,7 @@ export class IpLayer {
     v.icmpUnreachable = false;
     v.quoted.valid = false;
     v.fragment = Fragment.None;
+    v.l4Offset = -1;
   }
 
   /**
@@ -100,6 +101,9 @@ export class IpLayer {
   private transport(b: Uint8Array, l4: number, limit: number, whole: boolean, firstFragment: boolean, keyFamily: 4 | 6, id: number): boolean {
     this.clearTransport();
     const v = this.v;
+    v.l4Offset = l4;
+    v.l4Limit = limit;
+    v.unfragmented = !firstFragment;
     const proto = v.proto;
     const need = minTransport(proto);
     if (need > 0) {

@@ -53,4 +53,12 @@ export class PacketView {
   /** A destination unreachable that means "rejected" (v4 type 3 except code 4; v6 type 1). */
   icmpUnreachable = false;
   readonly quoted = new QuotedTuple();
+  /**
+   * Where the transport header starts in the decoded buffer, -1 for later fragments; with `l4Limit`
+   * (end of the datagram's captured bytes) it lets a reader look at the payload during the callback.
+   */
+  l4Offset = -1;
+  l4Limit = 0;
+  /** The datagram came whole, not as the first of several fragments. */
+  unfragmented = true;
 }

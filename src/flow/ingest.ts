@@ -24,13 +24,18 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
   // event-time span [first, last] in a typed array: a double kept in a closure variable would be
   // boxed anew on every store
   const span = Float64Array.of(NaN, NaN);
+  // UDP datagrams to a flow-export port that start like an IPFIX or NetFlow v9 message: a capture made
+  // of them is better read with --input-format export-capture (the CLI says so)
+  let exportLike = 0;
   // one closure per input, none per packet
   const onPacket: PacketSink = (buf, off, capLen, _origLen, tsSec, tsNs, linkType) => {
     const ts = tsSec * 1000 + tsNs / 1e6;
     if (!(ts >= span[0]!)) span[0] = ts;
     if (!(ts <= span[1]!)) span[1] = ts;
-    if (decoder.decode(buf, off, capLen, linkType)) table.add(view, ts);
-    else table.advance(ts);
+    if (decoder.decode(buf, off, capLen, linkType)) {
+      if (view.proto === 17 && isExportPort(view.dport) && looksLikeExport(buf, view.l4Offset, view.l4Limit)) exportLike++;
+      table.add(view, ts);
+    } else table.advance(ts);
   };
   let stoppedBy: InputProblem | undefined;
   const onProblem = (p: InputProblem) => {
@@ -65,10 +70,23 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
       evictedFlows: ts.evicted,
       droppedByCapture: cap.droppedByCapture,
       untimed: cap.untimed ? 1 : 0,
+      exportLikeDatagrams: exportLike,
     },
   };
   if (stoppedBy) summary.stoppedBy = stoppedBy;
   return summary;
+}
+
+/** Collector ports: 4739 (IPFIX, IANA), 2055, 9995, 9996 (NetFlow: common practice, no source). */
+function isExportPort(p: number): boolean {
+  return p === 4739 || p === 2055 || p === 9995 || p === 9996;
+}
+
+/** The UDP payload starts with version 10 and a plausible length, or version 9. */
+function looksLikeExport(b: Uint8Array, l4: number, limit: number): boolean {
+  const p = l4 + 8;
+  if (l4 < 0 || p + 4 > limit || b[p] !== 0) return false;
+  return b[p + 1] === 9 || (b[p + 1] === 10 && ((b[p + 2]! << 8) | b[p + 3]!) >= 16);
 }
 
 function sortedKeys(o: Record<string, number>): Record<string, number> {

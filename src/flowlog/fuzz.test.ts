@@ -2,6 +2,7 @@ import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
+import { ingestExportCapture } from './capture-ingest.js';
 import { ingestIpfix, ingestNetflowV9 } from './file-ingest.js';
 import { IpfixDecoder } from './ipfix.js';
 import { NetflowV9Decoder } from './netflow9.js';
@@ -12,6 +13,7 @@ import { DEFAULT_INGEST } from '../ingest/types.js';
 const golden = (f: string) => new Uint8Array(readFileSync(join(import.meta.dirname, '..', '..', 'test', 'golden', 'flowlog', f)));
 const ipfixSeed = golden('ipfix_mixed.ipfix');
 const v9Seed = golden('netflow9_mixed.nf9');
+const captureSeed = golden('exports_mixed.pcap');
 
 /** The seed with some bytes overwritten and maybe cut short. */
 const mutated = (seed: Uint8Array) => fc.record({
@@ -51,6 +53,15 @@ describe('fuzzing the flow-export decoders (fast-check)', () => {
       expect(s1.records).toBeGreaterThanOrEqual(0);
       expect(s2.records).toBeGreaterThanOrEqual(0);
     }), { numRuns: 200 });
+  });
+
+  it('a mutated capture of export datagrams never throws; every problem offset lies inside the file', async () => {
+    await fc.assert(fc.asyncProperty(mutated(captureSeed), fc.integer({ min: 1, max: 997 }), async (b, chunk) => {
+      const offsets: number[] = [];
+      const s = await ingestExportCapture(memorySource(b, chunk), () => {}, { ...DEFAULT_INGEST, onProblem: (p) => offsets.push(p.offset) });
+      expect(s.packets).toBeLessThanOrEqual(15);
+      for (const o of offsets) expect(o).toBeLessThan(b.length + 1);
+    }), { numRuns: 300 });
   });
 });
 

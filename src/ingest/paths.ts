@@ -9,4 +9,5 @@ export const loaders: ReadonlyMap<InputFormat, () => Promise<Ingestor>> = new Ma
   ['netflow9', () => import('../flowlog/file-ingest.js').then((m) => m.ingestNetflowV9)],
   ['csv', () => import('../flowlog/textlog.js').then((m) => m.ingestCsv)],
   ['jsonl', () => import('../flowlog/textlog.js').then((m) => m.ingestJsonl)],
+  ['export-capture', () => import('../flowlog/capture-ingest.js').then((m) => m.ingestExportCapture)],
 ]);

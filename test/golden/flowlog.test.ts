@@ -39,6 +39,16 @@ describe('flow-export goldens (reference: scapy 2.5 scapy.layers.netflow)', () =
     expect(b.counters.setsDecodedLate).toBe(1);
   });
 
+  it('exports_mixed.pcap with --input-format export-capture: the exported records, per exporter address and port', async () => {
+    const got: FlowRecord[] = [];
+    const problems: string[] = [];
+    const sum = await ingestInput(join(dir, 'exports_mixed.pcap'), (r) => got.push(r), { ...DEFAULT_INGEST, inputFormat: 'export-capture', onProblem: (p) => problems.push(p.reason) });
+    expect(problems).toEqual([]);
+    expect(got).toEqual(expected('exports_mixed.pcap'));
+    expect(sum.format).toBe('export-capture');
+    expect(sum.counters).toMatchObject({ exportDatagrams: 13, otherPackets: 2, exporters: 2, sequenceLost: 4 });
+  });
+
   const cli = join(root, 'dist', 'src', 'cli', 'main.js');
   beforeAll(() => {
     // tsc emits even when other folders still have type errors; only the emitted CLI matters here
@@ -58,6 +68,17 @@ describe('flow-export goldens (reference: scapy 2.5 scapy.layers.netflow)', () =
       expect(lines).toEqual(want);
     });
   }
+
+  it('tidewatch flows --input-format export-capture prints the same records', () => {
+    const out = spawnSync(process.execPath, [cli, 'flows', '--input-format', 'export-capture', join(dir, 'exports_mixed.pcap')], { encoding: 'utf8' });
+    expect(out.status).toBe(0);
+    const lines = out.stdout.split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as FlowRecord);
+    expect(lines).toEqual(expected('exports_mixed.pcap'));
+    // read as a plain capture it is 4 UDP/TCP flows between exporters and collector, and the summary says what to do
+    const plain = spawnSync(process.execPath, [cli, 'flows', join(dir, 'exports_mixed.pcap')], { encoding: 'utf8' });
+    expect(plain.stdout.trim().split('\n')).toHaveLength(4);
+    expect(plain.stderr).toMatch(/--input-format export-capture reads the flows they carry/);
+  });
 
   const python = '/usr/bin/python3';
   const canRegold = existsSync(python) && spawnSync(python, ['-c', 'import scapy.layers.netflow'], { stdio: 'ignore' }).status === 0;

@@ -3,8 +3,9 @@
 
     /usr/bin/python3 test/golden/make_flowlog_goldens.py [OUTDIR]
 
-Writes ipfix_mixed.ipfix and netflow9_mixed.nf9 (messages built with scapy.layers.netflow), and for
-each a .expected.json: the FlowRecords tidewatch must print, computed here by dissecting the written
+Writes ipfix_mixed.ipfix and netflow9_mixed.nf9 (messages built with scapy.layers.netflow),
+exports_mixed.pcap (the same messages as UDP datagrams from two exporters, captured, with other traffic
+between them: what `--input-format export-capture` reads), and for each a .expected.json: the FlowRecords tidewatch must print, computed here by dissecting the written
 bytes again with scapy (netflowv9_defragment) and mapping the dissected fields to the FlowRecord shape
 (src/flow/record.ts) with the rules of docs/flow-inputs.md. Deterministic: no clocks, no randomness.
 
@@ -492,6 +493,32 @@ def decode_v9(item, layouts, label):
     return recs
 
 
+# the capture of export traffic: IPFIX from an IPv4 exporter, NetFlow v9 from an IPv6 one (RFC 5737,
+# RFC 3849 documentation addresses), plus two packets that are not exports
+IPFIX_EXPORTER = ('192.0.2.1', 50123)
+V9_EXPORTER = ('2001:db8:60::2', 50200)
+MAC_A, MAC_B = '02:00:00:00:00:01', '02:00:00:00:00:02'
+
+
+def build_capture(msgs, pkts):
+    from scapy.layers.inet import IP, TCP, UDP
+    from scapy.layers.inet6 import IPv6
+    from scapy.layers.l2 import Ether
+    from scapy.packet import Raw
+    frames = []
+    for m in msgs:
+        frames.append(Ether(src=MAC_A, dst=MAC_B) / IP(src=IPFIX_EXPORTER[0], dst='192.0.2.250') /
+                      UDP(sport=IPFIX_EXPORTER[1], dport=4739) / Raw(m))
+    frames.insert(2, Ether(src=MAC_A, dst=MAC_B) / IP(src='192.0.2.7', dst='192.0.2.53') / UDP(sport=5353, dport=53) / Raw(b'\x00' * 12))
+    for m in pkts:
+        frames.append(Ether(src=MAC_A, dst=MAC_B) / IPv6(src=V9_EXPORTER[0], dst='2001:db8:60::250') /
+                      UDP(sport=V9_EXPORTER[1], dport=2055) / Raw(m))
+    frames.append(Ether(src=MAC_A, dst=MAC_B) / IP(src='192.0.2.7', dst='192.0.2.250') / TCP(sport=40000, dport=4739, flags='S'))
+    for i, f in enumerate(frames):
+        f.time = 1_700_000_000 + i
+    return frames
+
+
 def main():
     out_dir = sys.argv[1] if len(sys.argv) > 1 else os.path.join(os.path.dirname(os.path.abspath(__file__)), 'flowlog')
     os.makedirs(out_dir, exist_ok=True)
@@ -501,8 +528,12 @@ def main():
     pkts = build_v9()
     with open(os.path.join(out_dir, 'netflow9_mixed.nf9'), 'wb') as fh:
         fh.write(b''.join(pkts))
+    from scapy.utils import wrpcap
+    wrpcap(os.path.join(out_dir, 'exports_mixed.pcap'), build_capture(msgs, pkts))
+    captured = expect_ipfix(msgs, '%s:%d' % IPFIX_EXPORTER) + expect_v9(pkts, '[%s]:%d' % V9_EXPORTER)
     for name, recs in (('ipfix_mixed.ipfix', expect_ipfix(msgs, 'ipfix_mixed.ipfix')),
-                       ('netflow9_mixed.nf9', expect_v9(pkts, 'netflow9_mixed.nf9'))):
+                       ('netflow9_mixed.nf9', expect_v9(pkts, 'netflow9_mixed.nf9')),
+                       ('exports_mixed.pcap', captured)):
         with open(os.path.join(out_dir, name + '.expected.json'), 'w') as fh:
             json.dump(recs, fh, indent=1, sort_keys=False)
             fh.write('\n')

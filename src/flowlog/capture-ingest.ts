@@ -1,0 +1,145 @@
+import { readCapture } from '../capture/read.js';
+import type { PacketSink } from '../capture/types.js';
+import { Decoder } from '../decode/decoder.js';
+import type { FlowSink } from '../flow/record.js';
+import type { ByteSource } from '../ingest/source.js';
+import type { IngestOptions, IngestSummary } from '../ingest/types.js';
+import type { InputProblem } from '../util/problem.js';
+import { AddressTexts } from './addr-cache.js';
+import { IPFIX_VERSION, IpfixDecoder } from './ipfix.js';
+import { NetflowV9Decoder, V9_VERSION } from './netflow9.js';
+import { TemplateBudget, type ExportSession } from './session.js';
+
+/** Exporters (address and port) followed in one capture, as the collector does (ours, no source). */
+export const MAX_CAPTURED_EXPORTERS = 4096;
+
+interface CapturedExporter {
+  session: ExportSession;
+  ipfix?: IpfixDecoder;
+  v9?: NetflowV9Decoder;
+}
+
+/**
+ * A capture (pcap or pcapng) of flow-export traffic: each UDP datagram that carries an IPFIX message
+ * (RFC 7011 section 10.3: one message per datagram) or a NetFlow v9 export packet (RFC 3954) is decoded
+ * as the collector would have decoded it on arrival, with templates scoped per exporter address and
+ * port. The flows are the exported ones, timed by the exporter; the capture's own packets are not
+ * counted as flows. Other packets are counted and skipped. Fragmented datagrams are not reassembled:
+ * they are counted (`fragmentedDatagrams`) and skipped.
+ */
+export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
+  const decoder = new Decoder();
+  const v = decoder.view;
+  const budget = new TemplateBudget();
+  const exporters = new Map<string, CapturedExporter>();
+  const texts = new AddressTexts();
+  const key6 = new Uint8Array(16);
+  const count = { exportDatagrams: 0, otherPackets: 0, fragmentedDatagrams: 0, truncatedDatagrams: 0, exportersOverCap: 0 };
+  let stoppedBy: InputProblem | undefined;
+  const onProblem = (p: InputProblem) => {
+    if (p.fatal && !stoppedBy) stoppedBy = p;
+    opts.onProblem?.(p);
+  };
+  // a packet's data starts this far after its record header (pcap 16, pcapng EPB 28): problem offsets
+  // inside a message then name the file's own bytes
+  let recordHeader = 16;
+  const first = src.read.bind(src);
+  let sniffed = false;
+  const source: ByteSource = {
+    name: src.name, size: src.size, consumed: () => src.consumed(), close: () => src.close(),
+    read: async () => {
+      const c = await first();
+      if (!sniffed && c && c.length >= 4) {
+        sniffed = true;
+        if (c[0] === 0x0a && c[1] === 0x0d && c[2] === 0x0d && c[3] === 0x0a) recordHeader = 28;
+      }
+      return c;
+    },
+  };
+
+  const exporterFor = (version: number): CapturedExporter | null => {
+    let addr: string;
+    if (v.family === 4) addr = texts.v4(v.src4);
+    else {
+      for (let i = 0; i < 4; i++) { const w = v.src6[i]!; key6[4 * i] = w >>> 24; key6[4 * i + 1] = (w >>> 16) & 255; key6[4 * i + 2] = (w >>> 8) & 255; key6[4 * i + 3] = w & 255; }
+      addr = `[${texts.v6(key6, 0)}]`;
+    }
+    const name = `${addr}:${v.sport}`;
+    const k = `${version} ${name}`;
+    let e = exporters.get(k);
+    if (e) return e;
+    if (exporters.size >= MAX_CAPTURED_EXPORTERS) { count.exportersOverCap++; return null; }
+    if (version === IPFIX_VERSION) {
+      const ipfix = new IpfixDecoder(src.name, name, sink, budget, onProblem);
+      e = { session: ipfix.session, ipfix };
+    } else {
+      const v9 = new NetflowV9Decoder(src.name, name, sink, budget, onProblem);
+      e = { session: v9.session, v9 };
+    }
+    exporters.set(k, e);
+    return e;
+  };
+
+  const onPacket: PacketSink = (buf, off, capLen, _origLen, _tsSec, _tsNs, linkType, fileOff) => {
+    if (!decoder.decode(buf, off, capLen, linkType) || v.proto !== 17 || v.l4Offset < 0 || v.l4Offset + 8 > v.l4Limit) {
+      count.otherPackets++;
+      return;
+    }
+    const l4 = v.l4Offset;
+    const payload = l4 + 8;
+    const version = payload + 2 <= v.l4Limit ? (buf[payload]! << 8) | buf[payload + 1]! : -1;
+    if (version !== IPFIX_VERSION && version !== V9_VERSION) {
+      count.otherPackets++;
+      return;
+    }
+    if (!v.unfragmented) {
+      count.fragmentedDatagrams++;
+      return;
+    }
+    count.exportDatagrams++;
+    const udpEnd = l4 + ((buf[l4 + 4]! << 8) | buf[l4 + 5]!);
+    const end = udpEnd < v.l4Limit ? udpEnd : v.l4Limit;
+    const inputOff = fileOff + recordHeader + (payload - off);
+    if (udpEnd > v.l4Limit) {
+      count.truncatedDatagrams++;
+      onProblem({ file: src.name, offset: inputOff, reason: 'truncated-datagram', message: `export datagram cut by the capture (${udpEnd - v.l4Limit} bytes missing); decoded as far as it goes`, fatal: false });
+    }
+    const e = exporterFor(version);
+    if (!e) return;
+    if (e.ipfix) {
+      const used = e.ipfix.decodeMessage(buf, payload, end - payload, inputOff);
+      if (used > 0 && payload + used < end) e.session.problem('trailing-bytes', inputOff + used, `${end - payload - used} bytes after the IPFIX message in a datagram`);
+    } else e.v9!.decodePacket(buf, payload, end, inputOff);
+  };
+
+  const cap = await readCapture(source, onPacket, onProblem);
+  const counters: Record<string, number> = {};
+  const problems: Record<string, number> = { ...cap.problemCounts };
+  let bytes = 0, flows = 0, firstMs = NaN, lastMs = NaN;
+  for (const e of exporters.values()) {
+    (e.ipfix ?? e.v9)!.finish();
+    const c = e.session.counters;
+    for (const [k, n] of Object.entries(c.toObject())) counters[k] = (counters[k] ?? 0) + n;
+    for (const [k, n] of Object.entries(c.problems.toObject())) problems[k] = (problems[k] ?? 0) + n;
+    bytes += c.bytes;
+    flows += c.flows;
+    if (!(c.firstMs >= firstMs)) firstMs = c.firstMs;
+    if (!(c.lastMs <= lastMs)) lastMs = c.lastMs;
+  }
+  if (count.truncatedDatagrams > 0) problems['truncated-datagram'] = count.truncatedDatagrams;
+  const summary: IngestSummary = {
+    file: src.name,
+    format: 'export-capture',
+    packets: cap.packets,
+    records: counters['records'] ?? 0,
+    bytes,
+    flows,
+    firstMs,
+    lastMs,
+    problemCounts: Object.fromEntries(Object.entries(problems).sort((a, b) => a[0].localeCompare(b[0]))),
+    truncated: cap.truncated,
+    counters: { ...counters, ...count, exporters: exporters.size, decodedPackets: decoder.stats.decoded },
+  };
+  if (stoppedBy) summary.stoppedBy = stoppedBy;
+  return summary;
+}
