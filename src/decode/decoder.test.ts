@@ -149,6 +149,34 @@ describe('IPv4 (RFC 791)', () => {
     expect([ok, v.sport, v.dport]).toEqual([true, 1111, 22]);
     expect(d.stats.get('tiny-first-fragment')).toBe(1);
   });
+
+  it('a first fragment with the flags but not the whole TCP header is tiny too (RFC 1858), flags kept', () => {
+    const p = ipv4({ src: A, dst: B, proto: 6, id: 6, moreFragments: true, payload: tcp(1111, 22, SYN).subarray(0, 16) });
+    const { ok, v, d } = run(p, 101);
+    expect([ok, v.sport, v.dport, v.tcpFlags]).toEqual([true, 1111, 22, SYN]);
+    expect(d.stats.get('tiny-first-fragment')).toBe(1);
+  });
+});
+
+describe('TCP cut by the snap length (RFC 9293 section 3.1: data offset in octet 12, flags in octet 13)', () => {
+  it('IPv6 TCP captured to 68 octets keeps ports and flags: 14 octets of TCP are enough', () => {
+    const full = ether(0x86dd, ipv6({ src: '2001:db8:60::5', dst: '2001:db8::99', proto: 6, payload: tcp(50000, 443, SYN | ACK, 1200) }));
+    const { ok, v } = run(full.subarray(0, 68));
+    // RFC 8200: payload length + the 40-octet header is the true IP length
+    expect([ok, v.sport, v.dport, v.tcpFlags, v.ipBytes]).toEqual([true, 50000, 443, SYN | ACK, 1260]);
+  });
+
+  it('13 captured octets miss the flags: skipped as truncated-tcp', () => {
+    const full = ether(0x86dd, ipv6({ src: '2001:db8:60::5', dst: '2001:db8::99', proto: 6, payload: tcp(50000, 443, SYN) }));
+    const { ok, d } = run(full.subarray(0, 14 + 40 + 13));
+    expect([ok, d.stats.get('truncated-tcp')]).toEqual([false, 1]);
+  });
+
+  it('a whole datagram whose TCP header is shorter than 20 octets is malformed: skipped', () => {
+    const p = ipv4({ src: A, dst: B, proto: 6, payload: tcp(1111, 22, SYN).subarray(0, 16) });
+    const { ok, d } = run(p, 101);
+    expect([ok, d.stats.get('truncated-tcp')]).toEqual([false, 1]);
+  });
 });
 
 describe('IPv6 (RFC 8200) extension chain', () => {

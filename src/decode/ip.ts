@@ -2,7 +2,7 @@ import { isV4Mapped, readV6, u16, u32 } from './bytes.js';
 import { FragmentTable } from './fragments.js';
 import { Ipv6Chain } from './ipv6-chain.js';
 import { R, type DecodeStats } from './stats.js';
-import { destPort, hasPorts, isIcmp, minTransport, sourcePort, tcpOffsetOk, truncatedReason } from './transport.js';
+import { TCP_HEADER, destPort, hasPorts, isIcmp, minTransport, sourcePort, tcpOffsetOk, truncatedReason } from './transport.js';
 import { Fragment, type PacketView } from './view.js';
 
 /**
@@ -114,6 +114,12 @@ export class IpLayer {
         if (hasPorts(proto) && l4 + 4 <= limit) { v.sport = sourcePort(b, l4); v.dport = destPort(b, l4); }
       } else if (hasPorts(proto)) {
         if (proto === 6) {
+          if (l4 + TCP_HEADER > limit) {
+            // under 20 octets of TCP: a snap length cut past the flags is fine; a datagram that itself
+            // ends there is malformed, or, as a first fragment, the tiny-fragment evasion (RFC 1858)
+            if (whole && !firstFragment) return this.skip(R['truncated-tcp']);
+            if (whole) this.s.count(R['tiny-first-fragment']);
+          }
           if (!tcpOffsetOk(b, l4)) return this.skip(R['bad-tcp-offset']);
           v.tcpFlags = b[l4 + 13]!;
         }

@@ -11,13 +11,18 @@ export function isIcmp(proto: number): boolean {
   return proto === 1 || proto === 58;
 }
 
+/** A whole TCP header without options (RFC 9293 section 3.1). */
+export const TCP_HEADER = 20;
+
 /**
- * Minimum transport octets needed to fill the view: TCP through the data offset and flags (RFC 9293
- * section 3.1; the options are not needed), UDP its 8-octet header (RFC 768), ICMP type/code/checksum.
+ * Minimum transport octets needed to fill the view: TCP through the data offset and flags octet
+ * (octets 12 and 13, RFC 9293 section 3.1; window, checksum and urgent pointer are not read), so a
+ * capture cut at 68 octets still gives IPv6 TCP its ports and flags; UDP its 8-octet header (RFC 768),
+ * ICMP type/code/checksum.
  */
 export function minTransport(proto: number): number {
   switch (proto) {
-    case 6: return 20;
+    case 6: return 14;
     case 17: case 136: return 8;
     case 132: return 4;
     case 1: case 58: return 4;
