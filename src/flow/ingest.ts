@@ -82,11 +82,12 @@ function isExportPort(p: number): boolean {
   return p === 4739 || p === 2055 || p === 9995 || p === 9996;
 }
 
-/** The UDP payload starts with version 10 and a plausible length, or version 9. */
+/** The UDP payload starts with version 10 and a plausible length, version 9, or version 5 and a count of 1..30. */
 function looksLikeExport(b: Uint8Array, l4: number, limit: number): boolean {
   const p = l4 + 8;
   if (l4 < 0 || p + 4 > limit || b[p] !== 0) return false;
-  return b[p + 1] === 9 || (b[p + 1] === 10 && ((b[p + 2]! << 8) | b[p + 3]!) >= 16);
+  const n = (b[p + 2]! << 8) | b[p + 3]!;
+  return b[p + 1] === 9 || (b[p + 1] === 10 && n >= 16) || (b[p + 1] === 5 && n >= 1 && n <= 30);
 }
 
 function sortedKeys(o: Record<string, number>): Record<string, number> {

@@ -7,6 +7,7 @@ import type { IngestOptions, IngestSummary } from '../ingest/types.js';
 import type { InputProblem } from '../util/problem.js';
 import { AddressTexts } from './addr-cache.js';
 import { IPFIX_VERSION, IpfixDecoder } from './ipfix.js';
+import { NetflowV5Decoder, V5_VERSION } from './netflow5.js';
 import { NetflowV9Decoder, V9_VERSION } from './netflow9.js';
 import { TemplateBudget, type ExportSession } from './session.js';
 
@@ -17,11 +18,12 @@ interface CapturedExporter {
   session: ExportSession;
   ipfix?: IpfixDecoder;
   v9?: NetflowV9Decoder;
+  v5?: NetflowV5Decoder;
 }
 
 /**
  * A capture (pcap or pcapng) of flow-export traffic: each UDP datagram that carries an IPFIX message
- * (RFC 7011 section 10.3: one message per datagram) or a NetFlow v9 export packet (RFC 3954) is decoded
+ * (RFC 7011 section 10.3: one message per datagram), a NetFlow v9 (RFC 3954) or v5 export packet is decoded
  * as the collector would have decoded it on arrival, with templates scoped per exporter address and
  * port. The flows are the exported ones, timed by the exporter; the capture's own packets are not
  * counted as flows. Other packets are counted and skipped. Fragmented datagrams are not reassembled:
@@ -72,6 +74,9 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
     if (version === IPFIX_VERSION) {
       const ipfix = new IpfixDecoder(src.name, name, sink, budget, onProblem);
       e = { session: ipfix.session, ipfix };
+    } else if (version === V5_VERSION) {
+      const v5 = new NetflowV5Decoder(src.name, name, sink, budget, onProblem);
+      e = { session: v5.session, v5 };
     } else {
       const v9 = new NetflowV9Decoder(src.name, name, sink, budget, onProblem);
       e = { session: v9.session, v9 };
@@ -88,7 +93,7 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
     const l4 = v.l4Offset;
     const payload = l4 + 8;
     const version = payload + 2 <= v.l4Limit ? (buf[payload]! << 8) | buf[payload + 1]! : -1;
-    if (version !== IPFIX_VERSION && version !== V9_VERSION) {
+    if (version !== IPFIX_VERSION && version !== V9_VERSION && version !== V5_VERSION) {
       count.otherPackets++;
       return;
     }
@@ -109,6 +114,9 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
     if (e.ipfix) {
       const used = e.ipfix.decodeMessage(buf, payload, end - payload, inputOff);
       if (used > 0 && payload + used < end) e.session.problem('trailing-bytes', inputOff + used, `${end - payload - used} bytes after the IPFIX message in a datagram`);
+    } else if (e.v5) {
+      const used = e.v5.decodePacket(buf, payload, end - payload, inputOff);
+      if (used > 0 && payload + used < end) e.session.problem('trailing-bytes', inputOff + used, `${end - payload - used} bytes after the NetFlow v5 packet in a datagram`);
     } else e.v9!.decodePacket(buf, payload, end, inputOff);
   };
 
@@ -117,7 +125,7 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
   const problems: Record<string, number> = { ...cap.problemCounts };
   let bytes = 0, flows = 0, firstMs = NaN, lastMs = NaN;
   for (const e of exporters.values()) {
-    (e.ipfix ?? e.v9)!.finish();
+    (e.ipfix ?? e.v9 ?? e.v5)!.finish();
     const c = e.session.counters;
     for (const [k, n] of Object.entries(c.toObject())) counters[k] = (counters[k] ?? 0) + n;
     for (const [k, n] of Object.entries(c.problems.toObject())) problems[k] = (problems[k] ?? 0) + n;

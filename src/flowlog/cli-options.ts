@@ -15,7 +15,7 @@ export interface CollectorCliOptions {
 export function addCollectorOptions(cmd: Command): Command {
   return cmd
     .option('--ipfix-listen <HOST:PORT>', 'collect IPFIX over UDP and TCP on HOST:PORT (a bare PORT binds 127.0.0.1)')
-    .option('--netflow-listen <HOST:PORT>', 'collect NetFlow v9 over UDP on HOST:PORT (a bare PORT binds 127.0.0.1)')
+    .option('--netflow-listen <HOST:PORT>', 'collect NetFlow v9 and v5 over UDP on HOST:PORT (a bare PORT binds 127.0.0.1)')
     .option('--duration <SECONDS>', 'with a listener: stop after SECONDS instead of at SIGINT/SIGTERM');
 }
 

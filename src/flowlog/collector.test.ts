@@ -9,6 +9,7 @@ import { StreamSource } from '../ingest/source.js';
 import { DEFAULT_INGEST } from '../ingest/types.js';
 import { startCollector, parseListen, type CollectorHandle } from './collector.js';
 import { ingestIpfix, ingestNetflowV9 } from './file-ingest.js';
+import { v5PacketLength } from './netflow5.js';
 import { v9PacketEnd } from './netflow9.js';
 
 // The same scapy-made goldens as test/golden/flowlog.test.ts, delivered four ways.
@@ -51,7 +52,7 @@ describe('the same flows from a file, stdin, UDP and TCP', () => {
     expect(v9).toEqual(relabel(expected('netflow9_mixed.nf9'), 'stdin'));
   });
 
-  it('IPFIX over UDP and TCP, NetFlow v9 over UDP, on ephemeral 127.0.0.1 ports', async () => {
+  it('IPFIX over UDP and TCP, NetFlow v9 and v5 over UDP, on ephemeral 127.0.0.1 ports', async () => {
     const got: FlowRecord[] = [];
     handle = await startCollector({ ipfixUdp: '127.0.0.1:0', ipfixTcp: '127.0.0.1:0', netflowUdp: '127.0.0.1:0' }, (r) => got.push(r));
     const a = handle.addresses();
@@ -70,6 +71,14 @@ describe('the same flows from a file, stdin, UDP and TCP', () => {
     for (const m of v9Packets(bytes('netflow9_mixed.nf9'))) await send(m, a.netflowUdp!.port);
     await until(() => got.length >= v9Want.length);
     expect(got.splice(0)).toEqual(relabel(v9Want, me));
+
+    // the NetFlow port takes v5 too, each packet framed by its record count
+    const v5Want = expected('netflow5_mixed.nf5');
+    const v5 = bytes('netflow5_mixed.nf5');
+    let v5Packets = 0;
+    for (let p = 0; p < v5.length; v5Packets++) { const len = v5PacketLength(v5, p, v5.length - p); await send(v5.subarray(p, p + len), a.netflowUdp!.port); p += len; }
+    await until(() => got.length >= v5Want.length);
+    expect(got.splice(0)).toEqual(relabel(v5Want, me));
     udp.close();
 
     const sock = connect(a.ipfixTcp!.port, '127.0.0.1');
@@ -83,10 +92,11 @@ describe('the same flows from a file, stdin, UDP and TCP', () => {
 
     await until(() => handle!.stats().exporters.some((e) => e.transport === 'tcp'));
     const s = handle.stats();
-    expect(s.flows).toBe(2 * ipfixWant.length + v9Want.length);
+    expect(s.flows).toBe(2 * ipfixWant.length + v9Want.length + v5Want.length);
     expect(s.malformed).toBe(0);
-    expect(s.sequenceLost).toBe(3 + 1 + 3); // per exporter session: IPFIX UDP 3, v9 1, IPFIX TCP 3
-    expect(s.datagrams).toBe(ipfixMessages(file).length + v9Packets(bytes('netflow9_mixed.nf9')).length);
+    expect(s.sequenceLost).toBe(3 + 1 + 2 + 3); // per exporter session: IPFIX UDP 3, v9 1, v5 2, IPFIX TCP 3
+    expect(s.datagrams).toBe(ipfixMessages(file).length + v9Packets(bytes('netflow9_mixed.nf9')).length + v5Packets);
+    expect(s.exporters.map((e) => e.format).sort()).toEqual(['ipfix', 'ipfix', 'netflow5', 'netflow9']);
   });
 
   it('listen addresses: a bare port binds loopback; another host must be written', () => {

@@ -6,6 +6,7 @@ import type { InputProblem } from '../util/problem.js';
 import { ipfixFileStep } from './file-ingest.js';
 import { driveFrames } from './framing.js';
 import { IpfixDecoder } from './ipfix.js';
+import { NetflowV5Decoder, V5_VERSION } from './netflow5.js';
 import { NetflowV9Decoder } from './netflow9.js';
 import { TemplateBudget, type ExportSession } from './session.js';
 
@@ -40,7 +41,7 @@ export interface ExporterCounts {
 export interface ExporterStats extends ExporterCounts {
   /** `ADDR:PORT` of the exporter (IPv6 in brackets). */
   exporter: string;
-  format: 'ipfix' | 'netflow9';
+  format: 'ipfix' | 'netflow9' | 'netflow5';
   transport: 'udp' | 'tcp';
 }
 
@@ -102,12 +103,13 @@ function remoteName(address: string, port: number): string {
 
 interface Exporter {
   name: string;
-  format: 'ipfix' | 'netflow9';
+  format: 'ipfix' | 'netflow9' | 'netflow5';
   transport: 'udp' | 'tcp';
   session: ExportSession;
   datagrams: number;
   ipfix?: IpfixDecoder;
   v9?: NetflowV9Decoder;
+  v5?: NetflowV5Decoder;
 }
 
 /**
@@ -135,6 +137,9 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
     if (format === 'ipfix') {
       const ipfix = new IpfixDecoder(name, name, sink, budget, onProblem);
       e = { name, format, transport, session: ipfix.session, datagrams: 0, ipfix };
+    } else if (format === 'netflow5') {
+      const v5 = new NetflowV5Decoder(name, name, sink, budget, onProblem);
+      e = { name, format, transport, session: v5.session, datagrams: 0, v5 };
     } else {
       const v9 = new NetflowV9Decoder(name, name, sink, budget, onProblem);
       e = { name, format, transport, session: v9.session, datagrams: 0, v9 };
@@ -143,13 +148,15 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
     return e;
   };
 
-  const udp = async (spec: string, format: Exporter['format']): Promise<AddressInfo> => {
+  const udp = async (spec: string, listening: 'ipfix' | 'netflow9'): Promise<AddressInfo> => {
     const { host, port } = parseListen(spec);
     // a large receive buffer rides out scheduling gaps (the default holds about 90 datagrams); the
     // kernel caps it at net.core.rmem_max
     const sock = createSocket({ type: isIPv6(host) ? 'udp6' : 'udp4', recvBufferSize: UDP_RECEIVE_BUFFER });
     sock.on('message', (msg: Buffer, r: RemoteInfo) => {
       if (msg.length > maxDatagram) { datagramsOverCap++; return; }
+      // the NetFlow port takes v5 as well as v9: the datagram's version word says which
+      const format: Exporter['format'] = listening === 'netflow9' && msg.length >= 2 && msg[0] === 0 && msg[1] === V5_VERSION ? 'netflow5' : listening;
       const e = exporter(`${format} ${remoteName(r.address, r.port)}`, format, 'udp');
       if (!e) return;
       e.datagrams++;
@@ -157,6 +164,9 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
         // one message per datagram (RFC 7011 section 10.3.3); a shorter message leaves the rest unread
         const used = e.ipfix.decodeMessage(msg, 0, msg.length, 0);
         if (used > 0 && used < msg.length) e.session.problem('trailing-bytes', used, `${msg.length - used} bytes after the IPFIX message in a datagram`);
+      } else if (e.v5) {
+        const used = e.v5.decodePacket(msg, 0, msg.length, 0);
+        if (used > 0 && used < msg.length) e.session.problem('trailing-bytes', used, `${msg.length - used} bytes after the NetFlow v5 packet in a datagram`);
       } else e.v9!.decodePacket(msg, 0, msg.length, 0);
     });
     await new Promise<void>((resolve, reject) => {

@@ -3,6 +3,7 @@ import { inputLabel, type ByteSource } from '../ingest/source.js';
 import type { IngestOptions, IngestSummary, InputFormat } from '../ingest/types.js';
 import { driveFrames, resync, type FrameStep } from './framing.js';
 import { IPFIX_HEADER, IPFIX_VERSION, IpfixDecoder } from './ipfix.js';
+import { NetflowV5Decoder, V5_HEADER, v5PacketLength } from './netflow5.js';
 import { NetflowV9Decoder, V9_HEADER, V9_VERSION, v9PacketEnd } from './netflow9.js';
 import type { ExportSession } from './session.js';
 
@@ -11,32 +12,50 @@ const isIpfixHeader = (w: Uint8Array, p: number): boolean =>
 const isV9Header = (w: Uint8Array, p: number): boolean => w[p] === 0 && w[p + 1] === V9_VERSION;
 
 /**
- * IPFIX File (RFC 5655 section 7; METHODS.md 3.9): messages back to back, framed by their Length.
- * A header that is not version 10 with length >= 16 loses the framing: it is reported once and
- * reading resumes at the next plausible header.
+ * Units that carry their own length, back to back: `unitLength` is the length of the plausible header
+ * at `p` (-1 when there is none). A header that is not plausible loses the framing: it is reported once
+ * (`what` describes it) and reading resumes at the next plausible header.
  */
-export function ipfixFileStep(dec: IpfixDecoder): FrameStep {
+function lengthFramedStep(
+  head: number,
+  unitLength: (w: Uint8Array, p: number) => number,
+  decode: (w: Uint8Array, p: number, len: number, at: number) => void,
+  session: ExportSession,
+  what: (w: Uint8Array, p: number) => string,
+): FrameStep {
   let lost = false;
+  const plausible = (w: Uint8Array, p: number) => unitLength(w, p) > 0;
   return (w, n, base) => {
     let p = 0;
-    while (n - p >= IPFIX_HEADER) {
-      if (isIpfixHeader(w, p)) {
-        const len = (w[p + 2]! << 8) | w[p + 3]!;
+    while (n - p >= head) {
+      const len = unitLength(w, p);
+      if (len > 0) {
         if (p + len > n) break;
-        dec.decodeMessage(w, p, len, base + p);
+        decode(w, p, len, base + p);
         lost = false;
         p += len;
         continue;
       }
       if (!lost) {
-        const v = (w[p]! << 8) | w[p + 1]!, len = (w[p + 2]! << 8) | w[p + 3]!;
-        dec.session.problem('bad-header', base + p, `not an IPFIX message header (version ${v}, length ${len}); skipping to the next header`);
+        session.problem('bad-header', base + p, `${what(w, p)}; skipping to the next header`);
         lost = true;
       }
-      p = resync(w, p + 1, n, 4, isIpfixHeader);
+      p = resync(w, p + 1, n, 4, plausible);
     }
     return p;
   };
+}
+
+const word = (w: Uint8Array, p: number) => (w[p]! << 8) | w[p + 1]!;
+
+/**
+ * IPFIX File (RFC 5655 section 7; METHODS.md 3.9): messages back to back, framed by their Length;
+ * a header that is not version 10 with length >= 16 loses the framing.
+ */
+export function ipfixFileStep(dec: IpfixDecoder): FrameStep {
+  return lengthFramedStep(IPFIX_HEADER, (w, p) => (isIpfixHeader(w, p) ? word(w, p + 2) : -1),
+    (w, p, len, at) => { dec.decodeMessage(w, p, len, at); }, dec.session,
+    (w, p) => `not an IPFIX message header (version ${word(w, p)}, length ${word(w, p + 2)})`);
 }
 
 /** NetFlow v9 export packets back to back (no length field: each ends where the next header starts). */
@@ -64,6 +83,13 @@ export function v9FileStep(dec: NetflowV9Decoder): FrameStep {
   };
 }
 
+/** NetFlow v5 export packets back to back, each framed by its record count. */
+export function v5FileStep(dec: NetflowV5Decoder): FrameStep {
+  return lengthFramedStep(V5_HEADER, (w, p) => v5PacketLength(w, p, V5_HEADER),
+    (w, p, len, at) => { dec.decodePacket(w, p, len, at); }, dec.session,
+    (w, p) => `not a NetFlow v5 packet header (version ${word(w, p)}, count ${word(w, p + 2)})`);
+}
+
 function summary(file: string, format: InputFormat, s: ExportSession, truncatedBytes: number): IngestSummary {
   const c = s.counters;
   return {
@@ -84,20 +110,27 @@ function reportTruncation(s: ExportSession, src: ByteSource, tail: number, what:
   if (tail > 0) s.problem('truncated', src.consumed() - tail, `input ends inside ${what} (${tail} bytes left)`);
 }
 
-/** Ingestor for IPFIX files and streams (stdin). Exporter label: base name + `/ODID`. */
-export async function ingestIpfix(src: ByteSource, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
-  const dec = new IpfixDecoder(src.name, inputLabel(src.name), sink, undefined, opts.onProblem);
-  const tail = await driveFrames(src, ipfixFileStep(dec));
-  reportTruncation(dec.session, src, tail, 'an IPFIX message');
+/** Drives one export-file decoder over the whole source; a cut last unit is reported as truncated. */
+async function ingestFramed<D extends { session: ExportSession; finish(): void }>(
+  src: ByteSource, format: InputFormat, dec: D, step: (d: D) => FrameStep, unit: string,
+): Promise<IngestSummary> {
+  const tail = await driveFrames(src, step(dec));
+  reportTruncation(dec.session, src, tail, unit);
   dec.finish();
-  return summary(src.name, 'ipfix', dec.session, tail);
+  return summary(src.name, format, dec.session, tail);
+}
+
+/** Ingestor for IPFIX files and streams (stdin). Exporter label: base name + `/ODID`. */
+export function ingestIpfix(src: ByteSource, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
+  return ingestFramed(src, 'ipfix', new IpfixDecoder(src.name, inputLabel(src.name), sink, undefined, opts.onProblem), ipfixFileStep, 'an IPFIX message');
+}
+
+/** Ingestor for NetFlow v5 packet files and streams. Exporter label: base name + `/engine`. */
+export function ingestNetflowV5(src: ByteSource, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
+  return ingestFramed(src, 'netflow5', new NetflowV5Decoder(src.name, inputLabel(src.name), sink, undefined, opts.onProblem), v5FileStep, 'a NetFlow v5 packet');
 }
 
 /** Ingestor for NetFlow v9 packet files and streams. Exporter label: base name + `/SourceID`. */
-export async function ingestNetflowV9(src: ByteSource, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
-  const dec = new NetflowV9Decoder(src.name, inputLabel(src.name), sink, undefined, opts.onProblem);
-  const tail = await driveFrames(src, v9FileStep(dec));
-  reportTruncation(dec.session, src, tail, 'a NetFlow v9 packet');
-  dec.finish();
-  return summary(src.name, 'netflow9', dec.session, tail);
+export function ingestNetflowV9(src: ByteSource, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
+  return ingestFramed(src, 'netflow9', new NetflowV9Decoder(src.name, inputLabel(src.name), sink, undefined, opts.onProblem), v9FileStep, 'a NetFlow v9 packet');
 }

@@ -1,5 +1,6 @@
 import { describe, expect, it } from 'vitest';
-import { ingestNetflowV9 } from './file-ingest.js';
+import { ingestNetflowV5, ingestNetflowV9 } from './file-ingest.js';
+import { NetflowV5Decoder } from './netflow5.js';
 import { NetflowV9Decoder } from './netflow9.js';
 import { concat, runIngest, Wire } from './testing.js';
 
@@ -67,5 +68,30 @@ describe('NetFlow v9 (RFC 3954)', () => {
     const p = packet(0, 1, 1_700_000_600, t, flowset(260, rec));
     dec.decodePacket(p, 0, p.length, 0);
     expect(got).toEqual([expect.objectContaining({ bytes: 300, rbytes: 5000, start: 1_700_000_555_000 })]);
+  });
+});
+
+describe('NetFlow v5 (fixed 48-octet records; scapy NetflowHeaderV5 / NetflowRecordV5 layout)', () => {
+  const v5header = (count: number, seq = 0) => new Wire().u16(5).u16(count).u32(100_000).u32(1_700_000_000).u32(0).u32(seq).u8(0).u8(1).u16(0).bytes();
+  const v5record = () => new Wire().ip4('192.0.2.1').ip4('198.51.100.1').ip4('0.0.0.0').u16(1).u16(2).u32(3).u32(180)
+    .u32(90_000).u32(95_000).u16(40000).u16(80).u8(0).u8(0x02).u8(6).u8(0).u16(0).u16(0).u8(0).u8(0).u16(0).bytes();
+
+  it('hostile: count 0, count over 30 and a packet shorter than its count are reported, never read past', async () => {
+    const reasons: string[] = [];
+    const dec = new NetflowV5Decoder('t', 't', () => {}, undefined, (p) => reasons.push(p.reason));
+    expect(dec.decodePacket(v5header(0), 0, 24, 0)).toBe(0);
+    expect(dec.decodePacket(v5header(31), 0, 24, 0)).toBe(0);
+    const short = concat(v5header(2), v5record());
+    expect(dec.decodePacket(short, 0, short.length, 0)).toBe(0);
+    expect(reasons).toEqual(['bad-length', 'bad-length', 'truncated']);
+  });
+
+  it('a file with junk between packets resynchronises at the next header; a cut packet is truncated', async () => {
+    const good = concat(v5header(1), v5record());
+    const { recs, problems } = await runIngest(ingestNetflowV5, concat(good, new Uint8Array([0, 5, 0, 0, 9]), good, good.subarray(0, 30)), 13, 'r.nf5');
+    expect(recs).toHaveLength(2);
+    // SYN only from a one-way exporter: unanswered (docs/flow-inputs.md outcome rules); engine 0.1 -> /1
+    expect(recs[0]).toMatchObject({ start: 1_699_999_990_000, end: 1_699_999_995_000, outcome: 'unanswered', exporter: 'r.nf5/1' });
+    expect(problems.map((p) => [p.reason, p.offset])).toEqual([['bad-header', 72], ['truncated', 2 * 72 + 5]]);
   });
 });

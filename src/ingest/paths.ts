@@ -7,6 +7,7 @@ export const loaders: ReadonlyMap<InputFormat, () => Promise<Ingestor>> = new Ma
   ['pcapng', () => import('../flow/ingest.js').then((m) => m.ingestCapture)],
   ['ipfix', () => import('../flowlog/file-ingest.js').then((m) => m.ingestIpfix)],
   ['netflow9', () => import('../flowlog/file-ingest.js').then((m) => m.ingestNetflowV9)],
+  ['netflow5', () => import('../flowlog/file-ingest.js').then((m) => m.ingestNetflowV5)],
   ['csv', () => import('../flowlog/textlog.js').then((m) => m.ingestCsv)],
   ['jsonl', () => import('../flowlog/textlog.js').then((m) => m.ingestJsonl)],
   ['export-capture', () => import('../flowlog/capture-ingest.js').then((m) => m.ingestExportCapture)],

@@ -11,7 +11,7 @@ import { DEFAULT_INGEST } from '../../src/ingest/types.js';
 // expected records are scapy's dissection of the same bytes mapped to the FlowRecord shape.
 const dir = join(import.meta.dirname, 'flowlog');
 const root = join(import.meta.dirname, '..', '..');
-const GOLDENS = ['ipfix_mixed.ipfix', 'netflow9_mixed.nf9'];
+const GOLDENS = ['ipfix_mixed.ipfix', 'netflow9_mixed.nf9', 'netflow5_mixed.nf5'];
 
 function expected(name: string): FlowRecord[] {
   return JSON.parse(readFileSync(join(dir, `${name}.expected.json`), 'utf8')) as FlowRecord[];
@@ -29,7 +29,7 @@ describe('flow-export goldens (reference: scapy 2.5 scapy.layers.netflow)', () =
     });
   }
 
-  it('counts sequence losses: IPFIX 3 data records (RFC 7011 section 3.1, erratum 4396), v9 1 packet (RFC 3954 section 5.1)', async () => {
+  it('counts sequence losses: IPFIX 3 data records (RFC 7011 section 3.1, erratum 4396), v9 1 packet (RFC 3954 section 5.1), v5 2 flows', async () => {
     const a = await ingestInput(join(dir, 'ipfix_mixed.ipfix'), () => {}, DEFAULT_INGEST);
     expect(a.counters.sequenceLost).toBe(3);
     expect(a.counters.setsDecodedLate).toBe(1);
@@ -37,6 +37,9 @@ describe('flow-export goldens (reference: scapy 2.5 scapy.layers.netflow)', () =
     const b = await ingestInput(join(dir, 'netflow9_mixed.nf9'), () => {}, DEFAULT_INGEST);
     expect(b.counters.sequenceLost).toBe(1);
     expect(b.counters.setsDecodedLate).toBe(1);
+    // NetFlow v5: flow_sequence counts flows (Cisco's v5 header description, from memory): 3 expected, 5 came
+    const c = await ingestInput(join(dir, 'netflow5_mixed.nf5'), () => {}, DEFAULT_INGEST);
+    expect([c.format, c.counters.sequenceLost, c.counters.messages]).toEqual(['netflow5', 2, 3]);
   });
 
   it('exports_mixed.pcap with --input-format export-capture: the exported records, per exporter address and port', async () => {
@@ -46,7 +49,7 @@ describe('flow-export goldens (reference: scapy 2.5 scapy.layers.netflow)', () =
     expect(problems).toEqual([]);
     expect(got).toEqual(expected('exports_mixed.pcap'));
     expect(sum.format).toBe('export-capture');
-    expect(sum.counters).toMatchObject({ exportDatagrams: 13, otherPackets: 2, exporters: 2, sequenceLost: 4 });
+    expect(sum.counters).toMatchObject({ exportDatagrams: 16, otherPackets: 2, exporters: 3, sequenceLost: 6 });
   });
 
   const cli = join(root, 'dist', 'src', 'cli', 'main.js');
@@ -74,9 +77,9 @@ describe('flow-export goldens (reference: scapy 2.5 scapy.layers.netflow)', () =
     expect(out.status).toBe(0);
     const lines = out.stdout.split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as FlowRecord);
     expect(lines).toEqual(expected('exports_mixed.pcap'));
-    // read as a plain capture it is 4 UDP/TCP flows between exporters and collector, and the summary says what to do
+    // read as a plain capture it is 5 UDP/TCP flows between exporters and collector, and the summary says what to do
     const plain = spawnSync(process.execPath, [cli, 'flows', join(dir, 'exports_mixed.pcap')], { encoding: 'utf8' });
-    expect(plain.stdout.trim().split('\n')).toHaveLength(4);
+    expect(plain.stdout.trim().split('\n')).toHaveLength(5);
     expect(plain.stderr).toMatch(/--input-format export-capture reads the flows they carry/);
   });
 

@@ -3,9 +3,10 @@
 
     /usr/bin/python3 test/golden/make_flowlog_goldens.py [OUTDIR]
 
-Writes ipfix_mixed.ipfix and netflow9_mixed.nf9 (messages built with scapy.layers.netflow),
-exports_mixed.pcap (the same messages as UDP datagrams from two exporters, captured, with other traffic
-between them: what `--input-format export-capture` reads), and for each a .expected.json: the FlowRecords tidewatch must print, computed here by dissecting the written
+Writes ipfix_mixed.ipfix, netflow9_mixed.nf9 and netflow5_mixed.nf5 (messages built with
+scapy.layers.netflow), exports_mixed.pcap (the same messages as UDP datagrams from three exporters,
+captured, with other traffic between them: what `--input-format export-capture` reads), and for each a
+.expected.json: the FlowRecords tidewatch must print, computed here by dissecting the written
 bytes again with scapy (netflowv9_defragment) and mapping the dissected fields to the FlowRecord shape
 (src/flow/record.ts) with the rules of docs/flow-inputs.md. Deterministic: no clocks, no randomness.
 
@@ -234,6 +235,58 @@ def build_v9():
     pkts.append(v9(1, 4, 4_000, 1_700_000_004, tset(0, [(300, V300)]), data(300, V300, [
         dict(r300, L4_SRC_PORT=6001, FIRST_SWITCHED=3_500, LAST_SWITCHED=3_900)])))
     return pkts
+
+
+# ---------------------------------------------------------------- the NetFlow v5 file
+def v5(seq, uptime, secs, nsecs, engine_type, engine_id, recs):
+    from scapy.layers.netflow import NetflowHeaderV5, NetflowRecordV5
+    p = NetflowHeader(version=5) / NetflowHeaderV5(count=len(recs), sysUptime=uptime, unixSecs=secs,
+                                                   unixNanoSeconds=nsecs, flowSequence=seq,
+                                                   engineType=engine_type, engineID=engine_id)
+    for r in recs:
+        p = p / NetflowRecordV5(**r)
+    return raw(p)
+
+
+def v5rec(s, d, sp, dp, pr, fl, pk, oc, first, last):
+    return dict(src=s, dst=d, nexthop='0.0.0.0', input=1, output=2, dpkts=pk, dOctets=oc, first=first, last=last,
+                srcport=sp, dstport=dp, tcpFlags=fl, prot=pr, tos=0, src_as=64500, dst_as=64501, src_mask=24, dst_mask=24)
+
+
+def build_v5():
+    pkts = []
+    # unix time 1700000000.250 (nsecs 250 000 000), sysUptime 100000 ms: First 40000 -> 1699999940250
+    pkts.append(v5(0, 100_000, 1_700_000_000, 250_000_000, 0, 3, [
+        v5rec('10.3.0.5', '198.51.100.30', 52000, 443, 6, 0x1b, 10, 5000, 40_000, 90_000),
+        v5rec('10.3.0.6', '198.51.100.31', 52001, 22, 6, 0x02, 2, 120, 95_000, 96_000),
+        v5rec('10.3.0.7', '192.0.2.53', 5353, 53, 17, 0, 1, 70, 99_000, 99_000),
+    ]))
+    # flow_sequence counts flows: 3 expected, 5 sent -> 2 records lost; another engine (type 1, id 4)
+    pkts.append(v5(5, 200_000, 1_700_000_100, 0, 0, 3, [
+        v5rec('10.3.0.8', '203.0.113.70', 52002, 80, 6, 0x12, 4, 400, 150_000, 190_000),
+    ]))
+    pkts.append(v5(0, 50_000, 1_700_000_100, 0, 1, 4, [
+        v5rec('10.3.0.9', '203.0.113.71', 0, 0x0800, 1, 0, 3, 252, 49_000, 49_500),
+    ]))
+    return pkts
+
+
+def expect_v5(pkts, label):
+    """Dissects each packet with scapy and maps the v5 fields onto the IE numbering v9 kept."""
+    from scapy.layers.netflow import NetflowHeaderV5, NetflowRecordV5
+    out = []
+    for m in pkts:
+        hdr = NetflowHeader(m)
+        h = hdr[NetflowHeaderV5]
+        export_ms = h.unixSecs * 1000 + h.unixNanoSeconds // 1_000_000
+        engine = h.engineType * 256 + h.engineID
+        cur = h.payload
+        while isinstance(cur, NetflowRecordV5):
+            f = {8: cur.src, 12: cur.dst, 2: int(cur.dpkts), 1: int(cur.dOctets), 22: int(cur.first),
+                 21: int(cur.last), 7: int(cur.srcport), 11: int(cur.dstport), 6: int(cur.tcpFlags), 4: int(cur.prot)}
+            out.append(flow(f, f'{label}/{engine}', export_ms, v9_uptime=h.sysUptime))
+            cur = cur.payload
+    return out
 
 
 # ---------------------------------------------------------------- expected records
@@ -497,10 +550,11 @@ def decode_v9(item, layouts, label):
 # RFC 3849 documentation addresses), plus two packets that are not exports
 IPFIX_EXPORTER = ('192.0.2.1', 50123)
 V9_EXPORTER = ('2001:db8:60::2', 50200)
+V5_EXPORTER = ('192.0.2.3', 50300)
 MAC_A, MAC_B = '02:00:00:00:00:01', '02:00:00:00:00:02'
 
 
-def build_capture(msgs, pkts):
+def build_capture(msgs, pkts, v5pkts):
     from scapy.layers.inet import IP, TCP, UDP
     from scapy.layers.inet6 import IPv6
     from scapy.layers.l2 import Ether
@@ -514,6 +568,9 @@ def build_capture(msgs, pkts):
         frames.append(Ether(src=MAC_A, dst=MAC_B) / IPv6(src=V9_EXPORTER[0], dst='2001:db8:60::250') /
                       UDP(sport=V9_EXPORTER[1], dport=2055) / Raw(m))
     frames.append(Ether(src=MAC_A, dst=MAC_B) / IP(src='192.0.2.7', dst='192.0.2.250') / TCP(sport=40000, dport=4739, flags='S'))
+    for m in v5pkts:
+        frames.append(Ether(src=MAC_A, dst=MAC_B) / IP(src=V5_EXPORTER[0], dst='192.0.2.250') /
+                      UDP(sport=V5_EXPORTER[1], dport=2055) / Raw(m))
     for i, f in enumerate(frames):
         f.time = 1_700_000_000 + i
     return frames
@@ -528,11 +585,16 @@ def main():
     pkts = build_v9()
     with open(os.path.join(out_dir, 'netflow9_mixed.nf9'), 'wb') as fh:
         fh.write(b''.join(pkts))
+    v5pkts = build_v5()
+    with open(os.path.join(out_dir, 'netflow5_mixed.nf5'), 'wb') as fh:
+        fh.write(b''.join(v5pkts))
     from scapy.utils import wrpcap
-    wrpcap(os.path.join(out_dir, 'exports_mixed.pcap'), build_capture(msgs, pkts))
-    captured = expect_ipfix(msgs, '%s:%d' % IPFIX_EXPORTER) + expect_v9(pkts, '[%s]:%d' % V9_EXPORTER)
+    wrpcap(os.path.join(out_dir, 'exports_mixed.pcap'), build_capture(msgs, pkts, v5pkts))
+    captured = expect_ipfix(msgs, '%s:%d' % IPFIX_EXPORTER) + expect_v9(pkts, '[%s]:%d' % V9_EXPORTER) + \
+        expect_v5(v5pkts, '%s:%d' % V5_EXPORTER)
     for name, recs in (('ipfix_mixed.ipfix', expect_ipfix(msgs, 'ipfix_mixed.ipfix')),
                        ('netflow9_mixed.nf9', expect_v9(pkts, 'netflow9_mixed.nf9')),
+                       ('netflow5_mixed.nf5', expect_v5(v5pkts, 'netflow5_mixed.nf5')),
                        ('exports_mixed.pcap', captured)):
         with open(os.path.join(out_dir, name + '.expected.json'), 'w') as fh:
             json.dump(recs, fh, indent=1, sort_keys=False)
