@@ -158,6 +158,30 @@ describe('IPv4 (RFC 791)', () => {
   });
 });
 
+describe('MPLS, PPPoE, PPP and Cisco HDLC framings (the well-formed cases: test/golden/captures, scapy + dpkt)', () => {
+  const label = (v: number, bottom: boolean) => [(v >>> 12) & 255, (v >>> 4) & 255, ((v & 15) << 4) | (bottom ? 1 : 0), 64];
+  it('an MPLS stack deeper than the cap, a cut stack and a non-IP payload are counted and skipped (RFC 3032 section 2.1)', () => {
+    const d = new Decoder();
+    const deep = concat(...Array.from({ length: 9 }, (_, i) => label(16 + i, false)), label(99, true), tcpSyn);
+    expect(run(ether(0x8847, deep), 1, d).ok).toBe(false);
+    expect(run(ether(0x8847, concat(label(16, false), [0, 1])), 1, d).ok).toBe(false);
+    expect(run(ether(0x8847, concat(label(16, true), [0, 0, 0, 0], new Uint8Array(14))), 1, d).ok).toBe(false);
+    expect(d.stats.toObject()).toEqual({ 'mpls-too-deep': 1, 'truncated-mpls': 1, 'mpls-non-ip': 1 });
+  });
+  it('PPP: a one-octet (compressed) protocol field is read (RFC 1661 section 6.5); LCP is not IP', () => {
+    const d = new Decoder();
+    expect(run(concat([0x21], tcpSyn), 9, d).v.dport).toBe(443);
+    expect(run(concat([0xff, 0x03, 0xc0, 0x21], [1, 1, 0, 4]), 9, d).ok).toBe(false);
+    expect(run(ether(0x8864, [0x11, 0, 0, 1]), 1, d).ok).toBe(false);
+    expect(d.stats.toObject()).toEqual({ 'ppp-non-ip': 1, 'truncated-pppoe': 1 });
+  });
+  it('Cisco HDLC framing inside LINKTYPE_PPP_HDLC (50) as well as C_HDLC (104), from memory of the link-type table', () => {
+    expect(run(concat([0x0f, 0x00, 0x08, 0x00], tcpSyn), 50).v.dport).toBe(443);
+    expect(run(concat([0xff, 0x03, 0x00, 0x21], tcpSyn), 50).v.dport).toBe(443);
+    expect(run(concat([0x8f, 0x00], []), 104).d.stats.get('truncated-hdlc')).toBe(1);
+  });
+});
+
 describe('TCP cut by the snap length (RFC 9293 section 3.1: data offset in octet 12, flags in octet 13)', () => {
   it('IPv6 TCP captured to 68 octets keeps ports and flags: 14 octets of TCP are enough', () => {
     const full = ether(0x86dd, ipv6({ src: '2001:db8:60::5', dst: '2001:db8::99', proto: 6, payload: tcp(50000, 443, SYN | ACK, 1200) }));

@@ -5,6 +5,8 @@ import { PacketView } from './view.js';
 
 /** VLAN tags followed per frame at most (METHODS.md 2.1: cap the depth). */
 export const MAX_VLAN_TAGS = 4;
+/** MPLS label stack entries followed at most before the bottom of stack (ours, no source). */
+export const MAX_MPLS_LABELS = 8;
 
 /**
  * Decodes one packet at a time into a reused view, from the link layer (METHODS.md 1.3) to the
@@ -59,6 +61,14 @@ export class Decoder {
       case 108: // LOOP: address family big-endian
         if (p + 4 > end) return this.skip(R['truncated-null']);
         return this.addressFamily(b, p + 4, end, ((b[p]! << 24) | (b[p + 1]! << 16) | (b[p + 2]! << 8) | b[p + 3]!) >>> 0);
+      case 9: // PPP: HDLC-like framing (FF 03, RFC 1662) or the bare PPP protocol field (RFC 1661)
+        if (p + 2 <= end && b[p] === 0xff && b[p + 1] === 0x03) return this.ppp(b, p + 2, end);
+        return this.ppp(b, p, end);
+      case 50: // PPP_HDLC: FF 03 then PPP (RFC 1662), or 0F/8F 00 then an EtherType (Cisco framing, RFC 1547)
+      case 104: // C_HDLC (Cisco HDLC): address 0F/8F, control 00, EtherType
+        if (p + 4 > end) return this.skip(R['truncated-hdlc']);
+        if (b[p] === 0xff && b[p + 1] === 0x03) return this.ppp(b, p + 2, end);
+        return this.etherType(b, p + 4, end, u16(b, p + 2));
       default:
         return this.skip(R['undecoded-linktype']);
     }
@@ -115,8 +125,50 @@ export class Decoder {
         if (p + 4 > end) return this.skip(R['truncated-vlan']);
         if (this.view.vlan < 0) this.view.vlan = u16(b, p) & 0x0fff;
         return this.typeOrLength(b, p + 4, end, u16(b, p + 2));
+      case 0x8847: case 0x8848: return this.mpls(b, p, end); // MPLS unicast, multicast
+      case 0x8864: // PPPoE session stage (RFC 2516 section 4): ver/type, code, session id, length, then PPP
+        if (p + 6 > end) return this.skip(R['truncated-pppoe']);
+        return this.ppp(b, p + 6, end);
       case 0x0806: return this.skip(R['arp']);
       default: return this.skip(R['non-ip']);
     }
+  }
+
+  /**
+   * MPLS label stack (RFC 3032 section 2.1): 4-octet entries, the bottom one with S set; what follows
+   * carries no type, so IPv4 or IPv6 is told by the version nibble (anything else, a pseudowire, is
+   * counted and skipped).
+   */
+  private mpls(b: Uint8Array, p: number, end: number): boolean {
+    for (let n = 0; ; n++) {
+      if (n === MAX_MPLS_LABELS) return this.skip(R['mpls-too-deep']);
+      if (p + 4 > end) return this.skip(R['truncated-mpls']);
+      const bottom = (b[p + 2]! & 1) === 1;
+      p += 4;
+      if (bottom) break;
+    }
+    if (p >= end) return this.skip(R['truncated-mpls']);
+    const ver = b[p]! >>> 4;
+    if (ver === 4) return this.ip.ipv4(b, p, end);
+    if (ver === 6) return this.ip.ipv6(b, p, end);
+    return this.skip(R['mpls-non-ip']);
+  }
+
+  /**
+   * PPP protocol field (RFC 1661 section 2; one octet when compressed, section 6.5: an odd first octet):
+   * 0x0021 IPv4, 0x0057 IPv6 (RFC 5072); control protocols and the rest are counted and skipped.
+   */
+  private ppp(b: Uint8Array, p: number, end: number): boolean {
+    if (p >= end) return this.skip(R['truncated-ppp']);
+    let proto: number;
+    if ((b[p]! & 1) === 1) { proto = b[p]!; p += 1; }
+    else {
+      if (p + 2 > end) return this.skip(R['truncated-ppp']);
+      proto = u16(b, p);
+      p += 2;
+    }
+    if (proto === 0x21) return this.ip.ipv4(b, p, end);
+    if (proto === 0x57) return this.ip.ipv6(b, p, end);
+    return this.skip(R['ppp-non-ip']);
   }
 }

@@ -36,6 +36,8 @@ from scapy.layers.inet6 import (ICMPv6DestUnreach, ICMPv6EchoReply, ICMPv6EchoRe
                                 IPv6ExtHdrDestOpt, IPv6ExtHdrFragment, IPv6ExtHdrHopByHop,
                                 IPv6ExtHdrRouting)
 from scapy.layers.l2 import ARP, LLC, STP, CookedLinux, CookedLinuxV2, Dot1AD, Dot1Q, Dot3, Ether, Loopback
+from scapy.contrib.mpls import MPLS
+from scapy.layers.ppp import PPP, PPPoE
 from scapy.packet import Raw
 from scapy.utils import PcapNgReader, RawPcapWriter, rdpcap
 
@@ -47,6 +49,7 @@ MAC_B = '02:00:00:00:00:0b'
 
 # Link types (METHODS.md 1.3).
 LT_NULL, LT_ETHERNET, LT_RAW, LT_LOOP, LT_SLL, LT_SLL2 = 0, 1, 101, 108, 113, 276
+LT_PPP, LT_C_HDLC = 9, 104
 # BSD address families: IPv4 is 2 everywhere; IPv6 is 24 (NetBSD/OpenBSD), 28 (FreeBSD), 30 (macOS).
 AF_INET = 2
 
@@ -81,6 +84,13 @@ def frame(linktype, ip_pkt, outbound=False, af6=24):
     if linktype == LT_LOOP:
         # LINKTYPE_LOOP: the family is always big-endian, so struct rather than scapy's host-order field.
         return struct.pack('>I', af) + bytes(ip_pkt)
+    if linktype == LT_PPP:
+        # PPP in HDLC-like framing (RFC 1662): address FF, control 03, protocol 0x0021 / 0x0057
+        return bytes(PPP(proto=0x57 if isinstance(ip_pkt, IPv6) else 0x21) / ip_pkt) if outbound else \
+            b'\xff\x03' + bytes(PPP(proto=0x57 if isinstance(ip_pkt, IPv6) else 0x21) / ip_pkt)
+    if linktype == LT_C_HDLC:
+        # Cisco HDLC: address 0F (unicast), control 00, then an EtherType (no scapy layer: struct)
+        return struct.pack('>BBH', 0x0F, 0x00, ethertype(ip_pkt)) + bytes(ip_pkt)
     raise ValueError(linktype)
 
 
@@ -330,6 +340,50 @@ def golden_non_ip():
     return pkts
 
 
+def golden_mpls():
+    """Ethernet / MPLS label stack (two entries, S on the second; RFC 3032) / IPv4 and IPv6; one stack of
+    three entries under an 802.1Q tag."""
+    def mpls(ip_pkt, outbound=False, labels=(100, 200), vlan=None):
+        src, dst = (MAC_A, MAC_B) if not outbound else (MAC_B, MAC_A)
+        stack = None
+        for i, lab in enumerate(labels):
+            entry = MPLS(label=lab, s=1 if i == len(labels) - 1 else 0, ttl=64)
+            stack = entry if stack is None else stack / entry
+        head = Ether(src=src, dst=dst) / Dot1Q(vlan=vlan) if vlan is not None else Ether(src=src, dst=dst)
+        return bytes(head / stack / ip_pkt)
+    out = [(100_000, mpls(udp('192.0.2.170', '198.51.100.170', 58001, 53, b'q' * 20))),
+           (101_500, mpls(udp('198.51.100.170', '192.0.2.170', 53, 58001, b'a' * 40), outbound=True)),
+           (200_000, mpls(udp('2001:db8:170::a', '2001:db8:170::b', 58002, 53, b'q' * 24, ipv6=True))),
+           (300_000, mpls(udp('192.0.2.171', '198.51.100.171', 58003, 123, b'n' * 48), labels=(16, 17, 18), vlan=170))]
+    out += [(t + 300_000, mpls(IP(data))) for t, data in tcp_session(LT_RAW, '192.0.2.172', '198.51.100.172', 58004, 443)]
+    return out
+
+
+def golden_pppoe():
+    """Ethernet / PPPoE session (RFC 2516, EtherType 0x8864) / PPP / IPv4 and IPv6."""
+    def pppoe(ip_pkt, outbound=False):
+        src, dst = (MAC_A, MAC_B) if not outbound else (MAC_B, MAC_A)
+        proto = 0x57 if isinstance(ip_pkt, IPv6) else 0x21
+        return bytes(Ether(src=src, dst=dst, type=0x8864) / PPPoE(sessionid=0x0180) / PPP(proto=proto) / ip_pkt)
+    return [(100_000, pppoe(udp('192.0.2.180', '198.51.100.180', 59001, 53, b'q' * 20))),
+            (101_000, pppoe(udp('198.51.100.180', '192.0.2.180', 53, 59001, b'a' * 60), outbound=True)),
+            (200_000, pppoe(udp('2001:db8:180::a', '2001:db8:180::b', 59002, 443, b'x' * 30, ipv6=True)))]
+
+
+def golden_ppp():
+    """LINKTYPE_PPP (9): frames with HDLC-like framing (FF 03) and frames that start with the protocol field."""
+    pkts = udp_exchange(LT_PPP, '192.0.2.190', '198.51.100.190', 59101, 53, t=100_000)
+    pkts += [(200_000, frame(LT_PPP, udp('2001:db8:190::a', '2001:db8:190::b', 59102, 53, b'q' * 16, ipv6=True)))]
+    return pkts
+
+
+def golden_c_hdlc():
+    """LINKTYPE_C_HDLC (104): Cisco HDLC with IPv4 and IPv6 EtherTypes."""
+    pkts = udp_exchange(LT_C_HDLC, '192.0.2.200', '198.51.100.200', 59201, 53, t=100_000)
+    pkts += udp_exchange(LT_C_HDLC, '2001:db8:200::a', '2001:db8:200::b', 59202, 53, ipv6=True, t=200_000)
+    return pkts
+
+
 def golden_ipv4_options():
     """IPv4 headers longer than 20 octets (IHL 6 and 10): ports sit after the options."""
     a, b = '192.0.2.150', '198.51.100.150'
@@ -510,7 +564,11 @@ def ip_layer(linktype, buf):
     if linktype == LT_ETHERNET:
         eth = dpkt.ethernet.Ethernet(buf)
         tags = getattr(eth, 'vlan_tags', None)
-        ip = eth.data if isinstance(eth.data, (dpkt.ip.IP, dpkt.ip6.IP6)) else None
+        inner = eth.data
+        if isinstance(inner, dpkt.pppoe.PPPoE):  # dpkt dissects PPPoE session frames down to PPP
+            inner = inner.data.data
+        # MPLS: dpkt pops the label stack (eth.mpls_labels) and dissects IP by the version nibble
+        ip = inner if isinstance(inner, (dpkt.ip.IP, dpkt.ip6.IP6)) else None
         return ip, (tags[0].id if tags else None)
     if linktype == LT_RAW:
         return (dpkt.ip.IP(buf) if buf[0] >> 4 == 4 else dpkt.ip6.IP6(buf)), None
@@ -520,6 +578,13 @@ def ip_layer(linktype, buf):
         return dpkt.sll2.SLL2(buf).data, None
     if linktype in (LT_NULL, LT_LOOP):
         return dpkt.loopback.Loopback(buf).data, None  # dpkt accepts the family in either byte order
+    if linktype == LT_PPP:
+        # FF 03 framing: dpkt's PPP; a bare protocol field: dpkt's header-less PPP (the PPPoE one)
+        return (dpkt.ppp.PPP(buf) if buf[:2] == b'\xff\x03' else dpkt.pppoe.PPP(buf)).data, None
+    if linktype == LT_C_HDLC:
+        # dpkt has no Cisco HDLC layer: the 4-octet header (address, control, EtherType) is read here
+        et = struct.unpack('>H', buf[2:4])[0]
+        return (dpkt.ip.IP(buf[4:]) if et == 0x0800 else dpkt.ip6.IP6(buf[4:])), None
     raise ValueError('link type %d' % linktype)
 
 
@@ -770,6 +835,19 @@ GOLDENS = [
     ('non-ip-frames.pcap', 'pcap LE µs, linktype 1',
      'ARP request and reply and an 802.3/LLC spanning-tree frame give no flow; one UDP exchange does',
      lambda p: write_pcap(p, LT_ETHERNET, golden_non_ip())),
+    ('mpls.pcap', 'pcap LE µs, linktype 1',
+     'MPLS label stacks (RFC 3032: two entries; three under an 802.1Q tag) over IPv4 and IPv6, a TCP '
+     'session among them; the payload told by its version nibble',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_mpls())),
+    ('pppoe.pcap', 'pcap LE µs, linktype 1',
+     'PPPoE session frames (EtherType 0x8864, RFC 2516) carrying PPP with IPv4 and IPv6',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_pppoe())),
+    ('ppp.pcap', 'pcap LE µs, linktype 9',
+     'PPP with HDLC-like framing (FF 03, RFC 1662) and without it (protocol field first)',
+     lambda p: write_pcap(p, LT_PPP, golden_ppp())),
+    ('cisco-hdlc.pcap', 'pcap LE µs, linktype 104',
+     'Cisco HDLC: address 0F, control 00, EtherType; IPv4 and IPv6',
+     lambda p: write_pcap(p, LT_C_HDLC, golden_c_hdlc())),
     ('ipv4-options.pcap', 'pcap LE µs, linktype 1',
      'IPv4 with options (IHL 6 and IHL 10): ports read after the options, bytes = total length',
      lambda p: write_pcap(p, LT_ETHERNET, golden_ipv4_options())),
@@ -791,6 +869,9 @@ def scapy_totals(path):
     for p in rdpcap(path):
         if linktype == LT_ETHERNET and not isinstance(p, Ether):
             p = Ether(bytes(p))  # scapy does not mask the FCS bits of the LinkType word
+        if linktype == LT_C_HDLC:
+            raw = bytes(p)
+            p = (IP if raw[2:4] == b'\x08\x00' else IPv6)(raw[4:])
         if linktype in (LT_NULL, LT_LOOP):
             # scapy binds IPv6 only to this machine's AF_INET6 (10 on Linux) and reads LOOP (108) as
             # raw bytes, so take the family from the first 4 octets here and let scapy parse the rest.
