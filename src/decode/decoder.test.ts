@@ -182,6 +182,25 @@ describe('MPLS, PPPoE, PPP and Cisco HDLC framings (the well-formed cases: test/
   });
 });
 
+describe('tunnels (well-formed cases: test/golden/captures/tunnels.pcap, scapy + dpkt)', () => {
+  const O1 = '10.20.0.1', O2 = '10.20.0.2';
+  const vxlan = (inner: Uint8Array, flags = 0x08) => ether(0x0800, ipv4({ src: O1, dst: O2, proto: 17, payload: concat(udp(49152, 4789, 0).subarray(0, 8), [flags, 0, 0, 0, 0, 0x10, 0x92, 0], inner) }));
+  it('VXLAN is opened; three VXLAN levels deep the third stays a tunnel packet, counted (RFC 7348 section 5)', () => {
+    const d = new Decoder();
+    const one = vxlan(ether(0x0800, tcpSyn));
+    expect([run(one, 1, d).v.dport, run(one, 1, d).v.src4]).toEqual([443, n4(A)]);
+    const three = vxlan(vxlan(vxlan(ether(0x0800, tcpSyn))));
+    const r = run(three, 1, d);
+    expect([r.ok, r.v.proto, r.v.dport]).toEqual([true, 17, 4789]);
+    expect(d.stats.get('tunnel-too-deep')).toBe(1);
+  });
+  it('UDP to 4789 without the VXLAN I flag, and GRE version 1 (enhanced GRE, RFC 2637), stay as they are', () => {
+    expect(run(vxlan(ether(0x0800, tcpSyn), 0)).v.dport).toBe(4789);
+    const pptp = ether(0x0800, ipv4({ src: O1, dst: O2, proto: 47, payload: concat([0x30, 0x01, 0x88, 0x0b, 0, 0, 0, 0, 0, 0, 0, 0], tcpSyn) }));
+    expect(run(pptp).v.proto).toBe(47);
+  });
+});
+
 describe('TCP cut by the snap length (RFC 9293 section 3.1: data offset in octet 12, flags in octet 13)', () => {
   it('IPv6 TCP captured to 68 octets keeps ports and flags: 14 octets of TCP are enough', () => {
     const full = ether(0x86dd, ipv6({ src: '2001:db8:60::5', dst: '2001:db8::99', proto: 6, payload: tcp(50000, 443, SYN | ACK, 1200) }));

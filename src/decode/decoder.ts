@@ -7,6 +7,15 @@ import { PacketView } from './view.js';
 export const MAX_VLAN_TAGS = 4;
 /** MPLS label stack entries followed at most before the bottom of stack (ours, no source). */
 export const MAX_MPLS_LABELS = 8;
+/** Tunnels opened per packet at most (a tunnel in a tunnel is real; deeper nesting is hostile; ours). */
+export const MAX_TUNNELS = 2;
+
+/** UDP ports of the overlay encapsulations opened: VXLAN (RFC 7348 section 5), GENEVE (RFC 8926 section 3.3). */
+export const VXLAN_PORT = 4789;
+export const GENEVE_PORT = 6081;
+const ETH_TEB = 0x6558; // transparent Ethernet bridging: an Ethernet frame follows
+const ERSPAN_2 = 0x88be; // ERSPAN type I (no header) and II (8-octet header), GRE sequence bit tells them apart
+const ERSPAN_3 = 0x22eb;
 
 /**
  * Decodes one packet at a time into a reused view, from the link layer (METHODS.md 1.3) to the
@@ -18,6 +27,7 @@ export class Decoder {
   readonly stats = new DecodeStats();
   private readonly ip = new IpLayer(this.view, this.stats);
   private tags = 0;
+  private tunnels = 0;
   // Readers hand over Buffers (file chunks) and plain Uint8Arrays (carry buffers, replayed heads). Seen
   // through one plain Uint8Array view per chunk, every byte access here stays monomorphic.
   private lastChunk: Uint8Array | null = null;
@@ -28,6 +38,7 @@ export class Decoder {
     this.stats.packets++;
     this.view.vlan = -1;
     this.tags = 0;
+    this.tunnels = 0;
     if (buf !== this.lastChunk) {
       this.lastChunk = buf;
       this.lastPlain = buf.constructor === Uint8Array ? buf : new Uint8Array(buf.buffer, buf.byteOffset, buf.length);
@@ -74,6 +85,76 @@ export class Decoder {
     }
   }
 
+  private inet4(b: Uint8Array, p: number, end: number): boolean {
+    return this.ip.ipv4(b, p, end) && this.opened(b);
+  }
+
+  private inet6(b: Uint8Array, p: number, end: number): boolean {
+    return this.ip.ipv6(b, p, end) && this.opened(b);
+  }
+
+  /**
+   * After the IP layer: a mirror or overlay encapsulation (VXLAN, GENEVE, GRE carrying Ethernet, ERSPAN)
+   * is opened and the packet it carries decoded in its place, since that is the traffic being watched;
+   * anything else, and a header that does not parse as its encapsulation, stays the packet it is.
+   * GRE carrying IP and IP-in-IP stay tunnels: there the tunnel itself is the flow.
+   */
+  private opened(b: Uint8Array): boolean {
+    const v = this.view;
+    const l4 = v.l4Offset, end = v.l4Limit;
+    if (l4 < 0 || !v.unfragmented) return true;
+    let inner = -1, ethernet = true;
+    if (v.proto === 17) {
+      if (v.dport === VXLAN_PORT) {
+        // 8 octets: flags (I = 0x08 says a VNI is present), 24 reserved, VNI, 8 reserved
+        if (l4 + 16 <= end && (b[l4 + 8]! & 0x08) !== 0) inner = l4 + 16;
+      } else if (v.dport === GENEVE_PORT) {
+        // version 0, options length in 4-octet words, then the protocol type of what follows
+        if (l4 + 16 <= end && b[l4 + 8]! >>> 6 === 0) {
+          const proto = u16(b, l4 + 10);
+          const at = l4 + 16 + (b[l4 + 8]! & 0x3f) * 4;
+          if (proto === ETH_TEB) inner = at;
+          else if (proto === 0x0800 || proto === 0x86dd) { inner = at; ethernet = false; }
+        }
+      } else return true;
+    } else if (v.proto === 47) {
+      inner = this.greInner(b, l4, end);
+    } else return true;
+    if (inner < 0 || inner >= end) return true;
+    if (this.tunnels === MAX_TUNNELS) { this.stats.count(R['tunnel-too-deep']); return true; }
+    this.tunnels++;
+    this.stats.decapsulated++;
+    v.vlan = -1;
+    this.tags = 0;
+    return ethernet ? this.link(b, inner, end, 1) : this.raw(b, inner, end);
+  }
+
+  /**
+   * Where the Ethernet frame inside a GRE packet starts (RFC 2784; key and sequence number, RFC 2890),
+   * for protocol types that carry one: transparent Ethernet bridging, ERSPAN type I (no header), II
+   * (8 octets) and III (12 octets, 8 more with the platform-specific subheader, frame type 0 only);
+   * -1 otherwise. The ERSPAN layouts are from memory of the published ERSPAN drafts.
+   */
+  private greInner(b: Uint8Array, p: number, end: number): number {
+    if (p + 4 > end) return -1;
+    const flags = u16(b, p), proto = u16(b, p + 2);
+    // version 0 only; routing present (RFC 1701) is not followed
+    if ((flags & 0x0007) !== 0 || (flags & 0x4000) !== 0) return -1;
+    let q = p + 4;
+    if (flags & 0x8000) q += 4; // checksum + reserved
+    if (flags & 0x2000) q += 4; // key
+    const seq = (flags & 0x1000) !== 0;
+    if (seq) q += 4;
+    if (proto === ETH_TEB) return q;
+    if (proto === ERSPAN_2) return seq ? q + 8 : q;
+    if (proto === ERSPAN_3) {
+      if (q + 12 > end) return -1;
+      if (((b[q + 10]! >>> 2) & 0x1f) !== 0) return -1; // frame type: 0 = Ethernet
+      return q + 12 + ((b[q + 11]! & 1) !== 0 ? 8 : 0);
+    }
+    return -1;
+  }
+
   private skip(reason: number): boolean {
     this.stats.count(reason);
     return false;
@@ -82,15 +163,15 @@ export class Decoder {
   private raw(b: Uint8Array, p: number, end: number): boolean {
     if (p >= end) return this.skip(R['truncated-ipv4']);
     const ver = b[p]! >>> 4;
-    if (ver === 4) return this.ip.ipv4(b, p, end);
-    if (ver === 6) return this.ip.ipv6(b, p, end);
+    if (ver === 4) return this.inet4(b, p, end);
+    if (ver === 6) return this.inet6(b, p, end);
     return this.skip(R['bad-ip-version']);
   }
 
   /** BSD AF_ values: 2 = IPv4; 24, 28, 30 = IPv6 on the BSDs and macOS (METHODS.md 1.3). */
   private addressFamily(b: Uint8Array, p: number, end: number, fam: number): boolean {
-    if (fam === 2) return this.ip.ipv4(b, p, end);
-    if (fam === 24 || fam === 28 || fam === 30) return this.ip.ipv6(b, p, end);
+    if (fam === 2) return this.inet4(b, p, end);
+    if (fam === 24 || fam === 28 || fam === 30) return this.inet6(b, p, end);
     return this.skip(R['null-unknown-family']);
   }
 
@@ -118,8 +199,8 @@ export class Decoder {
 
   private etherType(b: Uint8Array, p: number, end: number, t: number): boolean {
     switch (t) {
-      case 0x0800: return this.ip.ipv4(b, p, end);
-      case 0x86dd: return this.ip.ipv6(b, p, end);
+      case 0x0800: return this.inet4(b, p, end);
+      case 0x86dd: return this.inet6(b, p, end);
       case 0x8100: case 0x88a8: case 0x9100: // 802.1Q C-tag, 802.1ad S-tag, pre-standard QinQ
         if (++this.tags > MAX_VLAN_TAGS) return this.skip(R['vlan-too-deep']);
         if (p + 4 > end) return this.skip(R['truncated-vlan']);
@@ -149,8 +230,8 @@ export class Decoder {
     }
     if (p >= end) return this.skip(R['truncated-mpls']);
     const ver = b[p]! >>> 4;
-    if (ver === 4) return this.ip.ipv4(b, p, end);
-    if (ver === 6) return this.ip.ipv6(b, p, end);
+    if (ver === 4) return this.inet4(b, p, end);
+    if (ver === 6) return this.inet6(b, p, end);
     return this.skip(R['mpls-non-ip']);
   }
 
@@ -167,8 +248,8 @@ export class Decoder {
       proto = u16(b, p);
       p += 2;
     }
-    if (proto === 0x21) return this.ip.ipv4(b, p, end);
-    if (proto === 0x57) return this.ip.ipv6(b, p, end);
+    if (proto === 0x21) return this.inet4(b, p, end);
+    if (proto === 0x57) return this.inet6(b, p, end);
     return this.skip(R['ppp-non-ip']);
   }
 }

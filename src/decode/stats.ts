@@ -39,6 +39,7 @@ export const REASONS = [
   'truncated-icmp-quote',
   'unmatched-fragment',
   'tiny-first-fragment',
+  'tunnel-too-deep',
 ] as const;
 
 export type Reason = (typeof REASONS)[number];
@@ -51,6 +52,8 @@ export class DecodeStats {
   packets = 0;
   /** Packets decoded into the view (returned true). */
   decoded = 0;
+  /** Tunnels opened (VXLAN, GENEVE, GRE with Ethernet, ERSPAN): the inner packet was decoded. */
+  decapsulated = 0;
   readonly counts = new Float64Array(REASONS.length);
 
   count(reason: number): void {

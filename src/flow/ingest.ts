@@ -66,6 +66,7 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
       inputBytes: cap.inputBytes,
       decodedPackets: decoder.stats.decoded,
       skippedPackets: decoder.stats.packets - decoder.stats.decoded,
+      tunnelsOpened: decoder.stats.decapsulated,
       distinctFlows: ts.flowsCreated,
       evictedFlows: ts.evicted,
       droppedByCapture: cap.droppedByCapture,

@@ -36,7 +36,11 @@ from scapy.layers.inet6 import (ICMPv6DestUnreach, ICMPv6EchoReply, ICMPv6EchoRe
                                 IPv6ExtHdrDestOpt, IPv6ExtHdrFragment, IPv6ExtHdrHopByHop,
                                 IPv6ExtHdrRouting)
 from scapy.layers.l2 import ARP, LLC, STP, CookedLinux, CookedLinuxV2, Dot1AD, Dot1Q, Dot3, Ether, Loopback
+from scapy.contrib.erspan import ERSPAN_II, ERSPAN_III, ERSPAN_PlatformSpecific
+from scapy.contrib.geneve import GENEVE
 from scapy.contrib.mpls import MPLS
+from scapy.layers.l2 import GRE
+from scapy.layers.vxlan import VXLAN
 from scapy.layers.ppp import PPP, PPPoE
 from scapy.packet import Raw
 from scapy.utils import PcapNgReader, RawPcapWriter, rdpcap
@@ -384,6 +388,30 @@ def golden_c_hdlc():
     return pkts
 
 
+def golden_tunnels():
+    """Mirror and overlay encapsulations, opened so the carried traffic is what counts: VXLAN (RFC 7348),
+    GENEVE (RFC 8926), GRE with Ethernet (0x6558) and a key (RFC 2890), ERSPAN II and III (with the
+    platform-specific subheader); GRE carrying IP stays a GRE flow between the tunnel ends."""
+    outer = lambda: Ether(src=MAC_A, dst=MAC_B) / IP(src='10.20.0.1', dst='10.20.0.2', id=1)
+    inner_eth = lambda: Ether(src='02:00:00:00:01:0a', dst='02:00:00:00:01:0b')
+    q = udp('192.0.2.210', '198.51.100.210', 59301, 53, b'q' * 20)
+    a = udp('198.51.100.210', '192.0.2.210', 53, 59301, b'a' * 50)
+    out = [
+        (100_000, bytes(outer() / UDP(sport=49152, dport=4789) / VXLAN(vni=4242, flags=0x08) / inner_eth() / q)),
+        (100_800, bytes(outer() / UDP(sport=49153, dport=4789) / VXLAN(vni=4242, flags=0x08) / inner_eth() / Dot1Q(vlan=210) / a)),
+        (200_000, bytes(outer() / UDP(sport=49154, dport=6081) / GENEVE(proto=0x6558, vni=77) / inner_eth() /
+                        udp('2001:db8:210::a', '2001:db8:210::b', 59302, 443, b'x' * 40, ipv6=True))),
+        (300_000, bytes(outer() / GRE(key_present=1, key=9, proto=0x6558) / inner_eth() /
+                        tcp('192.0.2.211', '198.51.100.211', 59303, 22, 'S', 7000))),
+        (400_000, bytes(outer() / GRE(seqnum_present=1, seqence_number=5, proto=0x88BE) / ERSPAN_II(session_id=3) /
+                        inner_eth() / udp('192.0.2.212', '198.51.100.212', 59304, 123, b'n' * 48))),
+        (500_000, bytes(outer() / GRE(seqnum_present=1, seqence_number=6, proto=0x22EB) / ERSPAN_III(session_id=4, o=1) /
+                        ERSPAN_PlatformSpecific() / inner_eth() / udp('192.0.2.213', '198.51.100.213', 59305, 514, b's' * 30))),
+        (600_000, bytes(outer() / GRE(proto=0x0800) / udp('192.0.2.214', '198.51.100.214', 59306, 53, b'g' * 10))),
+    ]
+    return out
+
+
 def golden_ipv4_options():
     """IPv4 headers longer than 20 octets (IHL 6 and 10): ports sit after the options."""
     a, b = '192.0.2.150', '198.51.100.150'
@@ -555,6 +583,45 @@ def read_pcapng(path):
             ticks = (epb.ts_high << 32) | epb.ts_low
             yield offset + Decimal(ticks) / Decimal(per_second), linktype, epb.pkt_data
         pos += blen
+
+
+def open_tunnel(ip, depth=0):
+    """The frame inside a mirror or overlay tunnel, as (ip, vlan) of that frame read with dpkt, or None to
+    keep the packet as it is. Tunnel headers are read here from their specifications (VXLAN RFC 7348
+    section 5, GENEVE RFC 8926 section 3.4, GRE RFC 2784 / RFC 2890, ERSPAN II and III from the published
+    drafts); dpkt dissects what they carry."""
+    if depth == 2 or not isinstance(ip, dpkt.ip.IP) or ip.off & 0x3FFF:
+        return None
+    payload = bytes(ip)[ip.hl * 4:ip.len]
+    if ip.p == 17 and len(payload) >= 16:
+        dport = struct.unpack('>H', payload[2:4])[0]
+        body = payload[8:]
+        if dport == 4789 and body[0] & 0x08:
+            return link_ip(LT_ETHERNET, body[8:], depth + 1)
+        if dport == 6081 and body[0] >> 6 == 0:
+            proto, at = struct.unpack('>H', body[2:4])[0], 8 + (body[0] & 0x3F) * 4
+            if proto == 0x6558:
+                return link_ip(LT_ETHERNET, body[at:], depth + 1)
+        return None
+    if ip.p == 47 and len(payload) >= 4:
+        flags, proto = struct.unpack('>HH', payload[:4])
+        if flags & 0x4007:
+            return None
+        at = 4 + (4 if flags & 0x8000 else 0) + (4 if flags & 0x2000 else 0) + (4 if flags & 0x1000 else 0)
+        if proto == 0x6558:
+            return link_ip(LT_ETHERNET, payload[at:], depth + 1)
+        if proto == 0x88BE:
+            return link_ip(LT_ETHERNET, payload[at + (8 if flags & 0x1000 else 0):], depth + 1)
+        if proto == 0x22EB:
+            sub = 8 if payload[at + 11] & 1 else 0
+            return link_ip(LT_ETHERNET, payload[at + 12 + sub:], depth + 1)
+    return None
+
+
+def link_ip(linktype, buf, depth=0):
+    ip, vlan = ip_layer(linktype, buf)
+    inner = open_tunnel(ip, depth)
+    return inner if inner is not None else (ip, vlan)
 
 
 def ip_layer(linktype, buf):
@@ -741,7 +808,7 @@ class FlowTable:
 def expected_flows(packets, exporter):
     table = FlowTable()
     for ts, linktype, buf in packets:
-        ip, vlan = ip_layer(linktype, buf)
+        ip, vlan = link_ip(linktype, buf)
         if ip is not None:
             table.packet(ts, ip, vlan)
     recs = [f.record(exporter) for f in table.order]
@@ -848,6 +915,10 @@ GOLDENS = [
     ('cisco-hdlc.pcap', 'pcap LE µs, linktype 104',
      'Cisco HDLC: address 0F, control 00, EtherType; IPv4 and IPv6',
      lambda p: write_pcap(p, LT_C_HDLC, golden_c_hdlc())),
+    ('tunnels.pcap', 'pcap LE µs, linktype 1',
+     'VXLAN (with an inner 802.1Q tag), GENEVE, GRE with Ethernet and a key, ERSPAN II and III: the carried '
+     'packets are the flows; GRE carrying IP stays a GRE flow between the tunnel ends',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_tunnels())),
     ('ipv4-options.pcap', 'pcap LE µs, linktype 1',
      'IPv4 with options (IHL 6 and IHL 10): ports read after the options, bytes = total length',
      lambda p: write_pcap(p, LT_ETHERNET, golden_ipv4_options())),
@@ -878,12 +949,12 @@ def scapy_totals(path):
             raw = bytes(p)
             family = struct.unpack('<I' if linktype == LT_NULL else '>I', raw[:4])[0]
             p = (IP if family == AF_INET else IPv6)(raw[4:])
-        if IP in p:
-            octets += p[IP].len
-        elif IPv6 in p:
-            octets += p[IPv6].plen + 40
-        else:
+        # the innermost IP header, unless GRE carries IP (that tunnel stays the flow)
+        ips = [x for x in p.iterpayloads() if type(x) in (IP, IPv6)]
+        if not ips:
             continue
+        top = ips[0] if GRE in p and p[GRE].proto in (0x0800, 0x86DD) else ips[-1]
+        octets += top.len if isinstance(top, IP) else top.plen + 40
         pkts += 1
     return pkts, octets
 
