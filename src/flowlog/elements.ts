@@ -16,6 +16,7 @@ export enum Kind {
   StartSec, EndSec, StartMs, EndMs, StartNtp, EndNtp, SysInitMs,
   RevOctets, RevPackets, RevFlags, BiflowDirection,
   ObsSec, ObsMs, ObsNtp, FirewallEvent,
+  StartDeltaUs, EndDeltaUs, DurationMs, DurationUs,
 }
 
 /** What a field needs from its length to be read as its kind. */
@@ -61,7 +62,11 @@ const IANA = new Map<number, Element>([
   [155, { kind: Kind.EndNtp, shape: Shape.Ntp }],   // flowEndMicroseconds
   [156, { kind: Kind.StartNtp, shape: Shape.Ntp }], // flowStartNanoseconds
   [157, { kind: Kind.EndNtp, shape: Shape.Ntp }],   // flowEndNanoseconds
+  [158, { kind: Kind.StartDeltaUs, shape: U }],  // flowStartDeltaMicroseconds (before the export time)
+  [159, { kind: Kind.EndDeltaUs, shape: U }],    // flowEndDeltaMicroseconds
   [160, { kind: Kind.SysInitMs, shape: U }],     // systemInitTimeMilliseconds
+  [161, { kind: Kind.DurationMs, shape: U }],    // flowDurationMilliseconds
+  [162, { kind: Kind.DurationUs, shape: U }],    // flowDurationMicroseconds
   [176, { kind: Kind.IcmpType, shape: U }],      // icmpTypeIPv4
   [177, { kind: Kind.IcmpCode, shape: U }],      // icmpCodeIPv4
   [178, { kind: Kind.IcmpType, shape: U }],      // icmpTypeIPv6

@@ -233,6 +233,16 @@ describe('hostile IPFIX input: nothing throws, each is counted and reported with
       expect(secs.start).toBe(1_700_000_200_000);
     });
 
+    it('times relative to the export time (158/159, microseconds before it) and durations (161/162) fill the missing side', () => {
+      // the message's export time is 1700000000 s (see `one`)
+      const rel = one([[158, 4], [159, 4]], new Wire().u32(2_500_000).u32(500_000).bytes());
+      expect([rel.start, rel.end]).toEqual([1_699_999_997_500, 1_699_999_999_500]);
+      const dur = one([[152, 8], [161, 4]], new Wire().u64(1_700_000_100_000).u32(1234).bytes());
+      expect([dur.start, dur.end]).toEqual([1_700_000_100_000, 1_700_000_101_234]);
+      const back = one([[153, 8], [162, 4]], new Wire().u64(1_700_000_100_000).u32(2_000_000).bytes());
+      expect([back.start, back.end]).toEqual([1_700_000_098_000, 1_700_000_100_000]);
+    });
+
     it('a firewall "flow denied" event (233 = 3) is a rejected flow', () => {
       const denied = one([[233, 1], [6, 1]], new Wire().u8(3).u8(0x02).bytes(), 6);
       expect(denied.outcome).toBe('rejected');

@@ -31,6 +31,10 @@ export class RecordScratch {
   obsRank = 3;
   /** firewallEvent (233); 0 when absent. */
   firewallEvent = 0;
+  /** flowStart/EndDeltaMicroseconds (158/159), microseconds before the export time; -1 when absent. */
+  startDeltaUs = -1; endDeltaUs = -1;
+  /** flowDurationMilliseconds / Microseconds (161/162) in ms; NaN when absent. */
+  durationMs = NaN;
 
   reset(): void {
     this.octets = 0; this.packets = 0; this.rOctets = 0; this.rPackets = 0;
@@ -48,6 +52,8 @@ export class RecordScratch {
     this.obsMs = NaN;
     this.obsRank = 3;
     this.firewallEvent = 0;
+    this.startDeltaUs = -1; this.endDeltaUs = -1;
+    this.durationMs = NaN;
   }
 }
 
@@ -127,6 +133,10 @@ export function decodeRecord(plan: DecodePlan, b: Uint8Array, off: number, end: 
       case Kind.ObsNtp: if (s.obsRank > 1) { s.obsMs = ntpToMs(b, p); s.obsRank = 1; } break;
       case Kind.ObsSec: if (s.obsRank > 2) { s.obsMs = readUint(b, p, len) * 1000; s.obsRank = 2; } break;
       case Kind.FirewallEvent: s.firewallEvent = b[p + len - 1]!; break;
+      case Kind.StartDeltaUs: s.startDeltaUs = readUint(b, p, len); break;
+      case Kind.EndDeltaUs: s.endDeltaUs = readUint(b, p, len); break;
+      case Kind.DurationMs: s.durationMs = readUint(b, p, len); break;
+      case Kind.DurationUs: if (s.durationMs !== s.durationMs) s.durationMs = readUint(b, p, len) / 1000; break;
     }
     p += len;
   }

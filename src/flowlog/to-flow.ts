@@ -21,12 +21,14 @@ const FLOW_DENIED = 3;
 
 /**
  * One side's time by precedence (METHODS.md 3.6): milliseconds > micro/nanoseconds > seconds >
- * SysUpTime-relative (v9 header, or systemInitTimeMilliseconds). NaN when the record has none.
+ * microseconds before the export time (158/159) > SysUpTime-relative (v9 header, or
+ * systemInitTimeMilliseconds). NaN when the record has none.
  */
-function sideTime(ms: number, ntpMs: number, sec: number, up: number, s: RecordScratch, ctx: TimeContext): number {
+function sideTime(ms: number, ntpMs: number, sec: number, deltaUs: number, up: number, s: RecordScratch, ctx: TimeContext): number {
   if (ms === ms) return ms;
   if (ntpMs === ntpMs) return ntpMs;
   if (sec === sec) return sec * 1000;
+  if (deltaUs >= 0) return ctx.exportMs - deltaUs / 1000;
   if (up < 0) return NaN;
   // v9: start = unix_secs*1000 - (sysUpTime - FIRST_SWITCHED) mod 2^32 (METHODS 3.8, check value 20)
   if (ctx.v9UptimeMs >= 0) return ctx.exportMs - ((ctx.v9UptimeMs - up) >>> 0);
@@ -43,8 +45,14 @@ export function toFlowRecord(
   s: RecordScratch, plan: DecodePlan, ctx: TimeContext, b: Uint8Array, texts: AddressTexts, exporter: string,
 ): FlowRecord | null {
   if (s.srcFamily === 0 || s.dstFamily === 0) return null;
-  let start = sideTime(s.startMs, s.startNtpMs, s.startSec, s.startUp, s, ctx);
-  let end = sideTime(s.endMs, s.endNtpMs, s.endSec, s.endUp, s, ctx);
+  let start = sideTime(s.startMs, s.startNtpMs, s.startSec, s.startDeltaUs, s.startUp, s, ctx);
+  let end = sideTime(s.endMs, s.endNtpMs, s.endSec, s.endDeltaUs, s.endUp, s, ctx);
+  // a duration (161/162) gives the side that is missing
+  const dur = s.durationMs;
+  if (dur === dur) {
+    if (start === start && end !== end) end = start + dur;
+    else if (end === end && start !== start) start = end - dur;
+  }
   if (start !== start) start = end === end ? end : s.obsMs === s.obsMs ? s.obsMs : ctx.exportMs;
   if (end !== end) end = start;
 
