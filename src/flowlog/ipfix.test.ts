@@ -248,6 +248,16 @@ describe('hostile IPFIX input: nothing throws, each is counted and reported with
       expect(denied.outcome).toBe('rejected');
       const deleted = one([[233, 1], [6, 1]], new Wire().u8(2).u8(0x02).bytes(), 6);
       expect(deleted.outcome).toBe('unanswered');
+      // a "created" event precedes any answer: neither success nor failure
+      const created = one([[233, 1], [231, 4], [232, 4]], new Wire().u8(1).u32(0).u32(0).bytes(), 6);
+      expect(created.outcome).toBe('partial');
+    });
+
+    it('octets back without a packet count (firewall exports give 231/232 only) make a flow answered', () => {
+      const r = one([[231, 4], [232, 4]], new Wire().u32(300).u32(4000).bytes());
+      expect(r).toMatchObject({ rpkts: 0, rbytes: 4000, outcome: 'established' });
+      const none = one([[231, 4], [232, 4]], new Wire().u32(300).u32(0).bytes());
+      expect(none.outcome).toBe('unanswered');
     });
 
     it('dot1qVlanId (243) gives the VLAN when vlanId (58) is absent; 58 wins when both come', () => {

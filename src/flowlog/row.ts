@@ -97,7 +97,7 @@ export function rowToFlow(row: Record<string, unknown>, exporter: string): FlowR
     outcome = ov as Outcome;
   } else {
     const biflow = present(row['rpkts']) || present(row['rbytes']);
-    outcome = exportedOutcome(proto, v.flags, v.rflags, v.rpkts, biflow, present(row['flags']), present(row['rflags']));
+    outcome = exportedOutcome(proto, v.flags, v.rflags, v.rpkts + v.rbytes, biflow, present(row['flags']), present(row['rflags']));
   }
   const rec: FlowRecord = {
     start, end, proto, src, dst, sport, dport, pkts: v.pkts, bytes: v.bytes, rpkts: v.rpkts, rbytes: v.rbytes,

@@ -16,8 +16,8 @@ export interface TimeContext {
 
 /** biflowDirection 2 = reverseInitiator: the record's "source" is the responder (RFC 5103; METHODS 3.6). */
 const REVERSE_INITIATOR = 2;
-/** firewallEvent 3 = flow denied (IANA "IPFIX Information Elements", firewallEvent value registry). */
-const FLOW_DENIED = 3;
+/** firewallEvent 1 = flow created, 3 = flow denied (IANA "IPFIX Information Elements", firewallEvent values). */
+const FLOW_CREATED = 1, FLOW_DENIED = 3;
 
 /**
  * One side's time by precedence (METHODS.md 3.6): milliseconds > micro/nanoseconds > seconds >
@@ -77,8 +77,10 @@ export function toFlowRecord(
     t = flags; flags = rflags; rflags = t;
     const h = hasFlags; hasFlags = hasRevFlags; hasRevFlags = h;
   }
-  // a firewall's denial is a refusal whatever the counters say
-  const outcome = s.firewallEvent === FLOW_DENIED ? 'rejected' : exportedOutcome(proto, flags, rflags, rpkts, plan.biflow, hasFlags, hasRevFlags);
+  // a firewall's denial is a refusal whatever the counters say; its "created" event comes before
+  // anything could come back (the flow's later deleted or update event tells)
+  const outcome = s.firewallEvent === FLOW_DENIED ? 'rejected' : s.firewallEvent === FLOW_CREATED ? 'partial'
+    : exportedOutcome(proto, flags, rflags, rpkts + rbytes, plan.biflow, hasFlags, hasRevFlags);
   const rec: FlowRecord = {
     start, end, proto, src, dst, sport, dport, pkts, bytes, rpkts, rbytes, flags, rflags, outcome, exporter,
   };

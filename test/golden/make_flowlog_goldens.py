@@ -291,7 +291,8 @@ def expect_v5(pkts, label):
 
 # ---------------------------------------------------------------- expected records
 def outcome(proto, flags, rflags, rpkts, biflow, has_flags, has_rflags):
-    """docs/flow-inputs.md, Outcome rules (same as src/flowlog/outcome.ts)."""
+    """docs/flow-inputs.md, Outcome rules (same as src/flowlog/outcome.ts); `rpkts` here is anything
+    that came back, reverse packets or reverse octets."""
     SYN, RST, ACK = 2, 4, 16
     if proto in (1, 58):
         return 'n/a'
@@ -361,7 +362,7 @@ def flow(f, exporter, export_ms, v9_uptime=None, sysinit=None, biflow=False, has
         has_flags, has_rflags = has_rflags, has_flags
     rec = dict(start=start, end=end, proto=proto, src=src, dst=dst, sport=sport, dport=dport, pkts=pkts,
                bytes=octets, rpkts=rpkts, rbytes=roctets, flags=flags, rflags=rflags,
-               outcome=outcome(proto, flags, rflags, rpkts, biflow, has_flags, has_rflags), exporter=exporter)
+               outcome=outcome(proto, flags, rflags, rpkts + roctets, biflow, has_flags, has_rflags), exporter=exporter)
     if 58 in f:
         rec['vlan'] = f[58] & 0xFFF
     return rec
