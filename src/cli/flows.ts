@@ -1,6 +1,6 @@
 import type { Command } from 'commander';
 import { FlowRecordWriter, type FlowOutputFormat } from '../flow/record-writer.js';
-import { looksLikeExportCapture } from '../ingest/hints.js';
+import { inputNotes } from '../ingest/hints.js';
 import { ingestInput } from '../ingest/index.js';
 import { DEFAULT_INGEST, INPUT_FORMATS, type IngestOptions, type IngestSummary, type InputFormat } from '../ingest/types.js';
 import { formatProblem, type InputProblem } from '../util/problem.js';
@@ -153,7 +153,7 @@ function summaryText(name: string, s: IngestSummary): string {
   const span = Number.isFinite(s.firstMs) ? `${rfc3339(s.firstMs)} .. ${rfc3339(s.lastMs)}` : 'no packets';
   const unit = s.format === 'pcap' || s.format === 'pcapng' ? 'packets' : s.format === 'export-capture' ? `packets, ${s.records} records` : 'records';
   const lines = [`${name}: ${s.format}, ${s.packets} ${unit}, ${s.bytes} bytes, ${s.flows} flow records, ${span}`];
-  if (looksLikeExportCapture(s)) lines.push(`${name}: hint: most packets are IPFIX or NetFlow v9 export datagrams; --input-format export-capture reads the flows they carry`);
+  for (const note of inputNotes(s)) lines.push(`${name}: ${note}`);
   const problems = Object.entries(s.problemCounts);
   if (problems.length > 0) lines.push(`${name}: problems: ${problems.map(([k, n]) => `${k} ${n}`).join(', ')}`);
   const dropped = s.counters.droppedByCapture ?? 0;

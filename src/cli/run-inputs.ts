@@ -1,4 +1,4 @@
-import { looksLikeExportCapture } from '../ingest/hints.js';
+import { inputNotes } from '../ingest/hints.js';
 import { ingestInput } from '../ingest/index.js';
 import { ReadingThread } from '../ingest/threaded.js';
 import { DEFAULT_INGEST, type IngestSummary, type InputFormat, type SourceProgress } from '../ingest/types.js';
@@ -90,7 +90,7 @@ export function describeInputs(summaries: readonly IngestSummary[]): string[] {
     lines.push(`${s.file} (${s.format}): ${unit}, ${s.bytes} bytes, ${s.flows} flows, ${span}${s.truncated ? ', TRUNCATED' : ''}`);
     const probs = Object.entries(s.problemCounts).filter(([, n]) => n > 0);
     if (probs.length > 0) lines.push(`  problems: ${probs.map(([k, n]) => `${k}=${n}`).join(', ')}`);
-    if (looksLikeExportCapture(s)) lines.push(`  hint: most packets are IPFIX or NetFlow v9 export datagrams; --input-format export-capture reads the flows they carry`);
+    for (const note of inputNotes(s)) lines.push(`  ${note}`);
   }
   return lines.map(escapeControls);
 }

@@ -127,7 +127,7 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
   for (const e of exporters.values()) {
     (e.ipfix ?? e.v9 ?? e.v5)!.finish();
     const c = e.session.counters;
-    for (const [k, n] of Object.entries(c.toObject())) counters[k] = (counters[k] ?? 0) + n;
+    for (const [k, n] of Object.entries(c.toObject())) counters[k] = k === 'samplingInterval' ? Math.max(counters[k] ?? 0, n) : (counters[k] ?? 0) + n;
     for (const [k, n] of Object.entries(c.problems.toObject())) problems[k] = (problems[k] ?? 0) + n;
     bytes += c.bytes;
     flows += c.flows;

@@ -16,7 +16,7 @@ export enum Kind {
   StartSec, EndSec, StartMs, EndMs, StartNtp, EndNtp, SysInitMs,
   RevOctets, RevPackets, RevFlags, BiflowDirection,
   ObsSec, ObsMs, ObsNtp, FirewallEvent,
-  StartDeltaUs, EndDeltaUs, DurationMs, DurationUs,
+  StartDeltaUs, EndDeltaUs, DurationMs, DurationUs, SamplingInterval,
 }
 
 /** What a field needs from its length to be read as its kind. */
@@ -51,6 +51,9 @@ const IANA = new Map<number, Element>([
   [27, { kind: Kind.Src6, shape: Shape.Ipv6 }],  // sourceIPv6Address
   [28, { kind: Kind.Dst6, shape: Shape.Ipv6 }],  // destinationIPv6Address
   [32, { kind: Kind.IcmpTypeCode, shape: U }],   // icmpTypeCodeIPv4
+  [34, { kind: Kind.SamplingInterval, shape: U }], // samplingInterval (v9 SAMPLING_INTERVAL)
+  [50, { kind: Kind.SamplingInterval, shape: U }], // samplerRandomInterval (v9 FLOW_SAMPLER_RANDOM_INTERVAL)
+  [305, { kind: Kind.SamplingInterval, shape: U }], // samplingPacketInterval
   [58, { kind: Kind.Vlan, shape: U }],           // vlanId
   [243, { kind: Kind.Vlan, shape: U, rank: 1 }], // dot1qVlanId
   [139, { kind: Kind.IcmpTypeCode, shape: U }],  // icmpTypeCodeIPv6

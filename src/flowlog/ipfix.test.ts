@@ -117,6 +117,17 @@ describe('IPFIX message decoding', () => {
     // METHODS.md 3.6: start = 160 + 22, end = 160 + 21
     expect(recs[0]).toMatchObject({ start: 1_699_000_001_000, end: 1_699_000_001_500 });
   });
+
+  it('an options record announcing 1-in-N sampling (samplingPacketInterval 305, IANA registry) is counted; counts stay as exported', () => {
+    const opt = ipfixSet(3, new Wire().u16(401).u16(2).u16(1).u16(149).u16(4).u16(305).u16(4).bytes());
+    const odata = ipfixSet(401, new Wire().u32(1).u32(512).bytes());
+    const t = ipfixSet(2, templateRecord(256, [...tuple, [2, 4]]));
+    const d = ipfixSet(256, concat(tupleBytes('192.0.2.1', 1), new Wire().u32(3).bytes()));
+    const { dec, recs, feed } = decoder();
+    feed(ipfixMessage(1, 0, 1_700_000_000, opt, odata, t, d));
+    expect(dec.counters.samplingInterval).toBe(512);
+    expect(recs[0]!.pkts).toBe(3);
+  });
 });
 
 describe('hostile IPFIX input: nothing throws, each is counted and reported with an offset', () => {

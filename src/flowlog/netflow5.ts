@@ -80,6 +80,9 @@ export class NetflowV5Decoder {
       else s.counters.sequenceResets++;
     }
     d.expectedSeq = (seq + count) >>> 0;
+    // sampling_interval: 2 bits of mode (0 = none), 14 bits of interval
+    const sampling = (b[off + 22]! << 8) | b[off + 23]!;
+    if (sampling >>> 14 !== 0 && (sampling & 0x3fff) > s.counters.samplingInterval) s.counters.samplingInterval = sampling & 0x3fff;
     // First/Last are sysUptime milliseconds: made absolute as v9's are (METHODS.md 3.8)
     s.decodeSet(d, V5_PLAN, b, off + V5_HEADER, off + len, exportMs, uptime, inputOff + V5_HEADER);
     return len;

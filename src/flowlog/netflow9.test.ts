@@ -86,6 +86,15 @@ describe('NetFlow v5 (fixed 48-octet records; scapy NetflowHeaderV5 / NetflowRec
     expect(reasons).toEqual(['bad-length', 'bad-length', 'truncated']);
   });
 
+  it('the header sampling_interval (mode bits 01, interval 100) is counted, counts stay as exported', () => {
+    const h = v5header(1);
+    h[22] = 0x40; h[23] = 100;
+    const dec = new NetflowV5Decoder('t', 't', () => {});
+    const p = concat(h, v5record());
+    expect(dec.decodePacket(p, 0, p.length, 0)).toBe(72);
+    expect(dec.counters.samplingInterval).toBe(100);
+  });
+
   it('a file with junk between packets resynchronises at the next header; a cut packet is truncated', async () => {
     const good = concat(v5header(1), v5record());
     const { recs, problems } = await runIngest(ingestNetflowV5, concat(good, new Uint8Array([0, 5, 0, 0, 9]), good, good.subarray(0, 30)), 13, 'r.nf5');

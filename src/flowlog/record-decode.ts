@@ -35,6 +35,8 @@ export class RecordScratch {
   startDeltaUs = -1; endDeltaUs = -1;
   /** flowDurationMilliseconds / Microseconds (161/162) in ms; NaN when absent. */
   durationMs = NaN;
+  /** 1-in-N packet sampling the record (or options record) announces (34, 50, 305); 0 when absent. */
+  samplingInterval = 0;
 
   reset(): void {
     this.octets = 0; this.packets = 0; this.rOctets = 0; this.rPackets = 0;
@@ -54,6 +56,7 @@ export class RecordScratch {
     this.firewallEvent = 0;
     this.startDeltaUs = -1; this.endDeltaUs = -1;
     this.durationMs = NaN;
+    this.samplingInterval = 0;
   }
 }
 
@@ -137,6 +140,7 @@ export function decodeRecord(plan: DecodePlan, b: Uint8Array, off: number, end: 
       case Kind.EndDeltaUs: s.endDeltaUs = readUint(b, p, len); break;
       case Kind.DurationMs: s.durationMs = readUint(b, p, len); break;
       case Kind.DurationUs: if (s.durationMs !== s.durationMs) s.durationMs = readUint(b, p, len) / 1000; break;
+      case Kind.SamplingInterval: s.samplingInterval = readUint(b, p, len); break;
     }
     p += len;
   }

@@ -56,6 +56,8 @@ export class SessionCounters {
   /** Records lost by sequence numbers (IPFIX: data records; NetFlow v9: export packets). */
   sequenceLost = 0;
   sequenceResets = 0;
+  /** The largest 1-in-N packet sampling an exporter announced (0: none); counts are never scaled by it. */
+  samplingInterval = 0;
   bytes = 0;
   firstMs = NaN;
   lastMs = NaN;
@@ -68,7 +70,7 @@ export class SessionCounters {
       templatesRedefined: this.templatesRedefined, templatesWithdrawn: this.templatesWithdrawn,
       templatesOverCap: this.templatesOverCap, pendingOverCap: this.pendingOverCap, setsDecodedLate: this.setsDecodedLate,
       unknownTemplateSets: this.unknownTemplateSets, sequenceLost: this.sequenceLost,
-      sequenceResets: this.sequenceResets,
+      sequenceResets: this.sequenceResets, samplingInterval: this.samplingInterval,
     };
   }
 }
@@ -206,6 +208,7 @@ export class ExportSession {
       }
       p = next;
       n++;
+      if (s.samplingInterval > c.samplingInterval) c.samplingInterval = s.samplingInterval;
       if (plan.isOptions) {
         c.optionsRecords++;
         if (s.sysInitMs === s.sysInitMs) ctx.sysInitMs = d.sysInitMs = s.sysInitMs;

@@ -1,0 +1,19 @@
+import { describe, expect, it } from 'vitest';
+import { inputNotes } from './hints.js';
+import type { IngestSummary } from './types.js';
+
+const summary = (packets: number, counters: Record<string, number>): IngestSummary => ({
+  file: 'x', format: 'pcap', packets, records: packets, bytes: 0, flows: 0, firstMs: NaN, lastMs: NaN,
+  problemCounts: {}, truncated: false, counters,
+});
+
+describe('notes under an input summary (ours)', () => {
+  it('a capture mostly of export datagrams names the export-capture format; a few such datagrams do not', () => {
+    expect(inputNotes(summary(10, { exportLikeDatagrams: 6 }))[0]).toMatch(/--input-format export-capture/);
+    expect(inputNotes(summary(10, { exportLikeDatagrams: 4 }))).toEqual([]);
+  });
+  it('announced sampling is said, with the counts left as exported', () => {
+    expect(inputNotes(summary(10, { samplingInterval: 1000 }))).toEqual(['note: the exporter samples 1 in 1000 packets; packets and bytes are as exported, not scaled']);
+    expect(inputNotes(summary(10, { samplingInterval: 1 }))).toEqual([]);
+  });
+});
