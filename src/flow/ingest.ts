@@ -2,6 +2,7 @@ import { readCapture } from '../capture/read.js';
 import type { PacketSink } from '../capture/types.js';
 import { Decoder } from '../decode/decoder.js';
 import { inputLabel, type ByteSource } from '../ingest/source.js';
+import { isExportDatagram } from '../ingest/export-sniff.js';
 import type { IngestOptions, IngestSummary } from '../ingest/types.js';
 import type { InputProblem } from '../util/problem.js';
 import type { FlowSink } from './record.js';
@@ -33,7 +34,7 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
     if (!(ts >= span[0]!)) span[0] = ts;
     if (!(ts <= span[1]!)) span[1] = ts;
     if (decoder.decode(buf, off, capLen, linkType)) {
-      if (view.proto === 17 && isExportPort(view.dport) && looksLikeExport(buf, view.l4Offset, view.l4Limit)) exportLike++;
+      if (view.proto === 17 && isExportDatagram(buf, view.l4Offset, view.l4Limit, view.sport, view.dport)) exportLike++;
       table.add(view, ts);
     } else table.advance(ts);
   };
@@ -76,19 +77,6 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
   };
   if (stoppedBy) summary.stoppedBy = stoppedBy;
   return summary;
-}
-
-/** Collector ports: 4739 (IPFIX, IANA), 2055, 9995, 9996 (NetFlow: common practice, no source). */
-function isExportPort(p: number): boolean {
-  return p === 4739 || p === 2055 || p === 9995 || p === 9996;
-}
-
-/** The UDP payload starts with version 10 and a plausible length, version 9, or version 5 and a count of 1..30. */
-function looksLikeExport(b: Uint8Array, l4: number, limit: number): boolean {
-  const p = l4 + 8;
-  if (l4 < 0 || p + 4 > limit || b[p] !== 0) return false;
-  const n = (b[p + 2]! << 8) | b[p + 3]!;
-  return b[p + 1] === 9 || (b[p + 1] === 10 && n >= 16) || (b[p + 1] === 5 && n >= 1 && n <= 30);
 }
 
 function sortedKeys(o: Record<string, number>): Record<string, number> {

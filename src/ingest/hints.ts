@@ -13,6 +13,7 @@ export function looksLikeExportCapture(s: IngestSummary): boolean {
 /** What the reader of a summary should know beyond its counts: one line each, without the file name. */
 export function inputNotes(s: IngestSummary): string[] {
   const notes: string[] = [];
+  if (s.counters['readAsExports']) notes.push('note: most packets are flow-export datagrams, so the flows they carry were read; --input-format pcap reads the packets themselves');
   if (looksLikeExportCapture(s)) notes.push('hint: most packets are IPFIX or NetFlow export datagrams; --input-format export-capture reads the flows they carry');
   const n = s.counters['samplingInterval'] ?? 0;
   if (n > 1) notes.push(`note: the exporter samples 1 in ${n} packets; packets and bytes are as exported, not scaled`);

@@ -106,8 +106,11 @@ export async function openSource(name: string): Promise<ByteSource> {
   return new FileSource(name, fh, st.isFile() ? st.size : -1);
 }
 
-/** Peeks at least `n` leading bytes without losing them; returns the peeked bytes (copy) and a source that replays them. */
-export async function peekSource(src: ByteSource, n: number): Promise<{ head: Uint8Array; source: ByteSource }> {
+/**
+ * Peeks at least `n` leading bytes without losing them; returns the first `n` peeked bytes (copy),
+ * everything read to get them (`read`: at least one whole chunk) and a source that replays it all.
+ */
+export async function peekSource(src: ByteSource, n: number): Promise<{ head: Uint8Array; read: Uint8Array; source: ByteSource }> {
   const parts: Uint8Array[] = [];
   let have = 0;
   while (have < n) {
@@ -131,7 +134,7 @@ export async function peekSource(src: ByteSource, n: number): Promise<{ head: Ui
     },
     close: () => src.close(),
   };
-  return { head: head.subarray(0, Math.min(have, n)), source };
+  return { head: head.subarray(0, Math.min(have, n)), read: head, source };
 }
 
 /** Decompresses a gzip ByteSource on the fly. */

@@ -2,7 +2,7 @@ import type { FlowSink } from '../flow/record.js';
 import type { InputProblem } from '../util/problem.js';
 import type { ByteSource } from './source.js';
 
-/** `export-capture` (a capture of IPFIX / NetFlow v9 export datagrams) is never sniffed, only asked for. */
+/** `export-capture`: a capture of IPFIX / NetFlow export datagrams, taken when its first packets are mostly those (ingest/export-sniff.ts) or when asked for. */
 export type InputFormat = 'pcap' | 'pcapng' | 'ipfix' | 'netflow9' | 'netflow5' | 'csv' | 'jsonl' | 'export-capture';
 export const INPUT_FORMATS: readonly InputFormat[] = ['pcap', 'pcapng', 'ipfix', 'netflow9', 'netflow5', 'csv', 'jsonl', 'export-capture'];
 

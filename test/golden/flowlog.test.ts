@@ -77,8 +77,12 @@ describe('flow-export goldens (reference: scapy 2.5 scapy.layers.netflow)', () =
     expect(out.status).toBe(0);
     const lines = out.stdout.split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as FlowRecord);
     expect(lines).toEqual(expected('exports_mixed.pcap'));
-    // read as a plain capture it is 5 UDP/TCP flows between exporters and collector, and the summary says what to do
-    const plain = spawnSync(process.execPath, [cli, 'flows', join(dir, 'exports_mixed.pcap')], { encoding: 'utf8' });
+    // without --input-format the capture is recognised as export traffic from its first packets
+    const auto = spawnSync(process.execPath, [cli, 'flows', join(dir, 'exports_mixed.pcap')], { encoding: 'utf8' });
+    expect(auto.stdout.split('\n').filter((l) => l.length > 0).map((l) => JSON.parse(l) as FlowRecord)).toEqual(expected('exports_mixed.pcap'));
+    expect(auto.stderr).toMatch(/so the flows they carry were read; --input-format pcap reads the packets themselves/);
+    // read as packets it is 5 UDP/TCP flows between exporters and collector, and the summary says what to do
+    const plain = spawnSync(process.execPath, [cli, 'flows', '--input-format', 'pcap', join(dir, 'exports_mixed.pcap')], { encoding: 'utf8' });
     expect(plain.stdout.trim().split('\n')).toHaveLength(5);
     expect(plain.stderr).toMatch(/--input-format export-capture reads the flows they carry/);
   });
