@@ -1,6 +1,6 @@
 import type { FlowSink } from '../flow/record.js';
 import { openSource, peekSource, gunzipSource, type ByteSource } from './source.js';
-import { sniffFormat } from './sniff.js';
+import { packedFormat, sniffFormat } from './sniff.js';
 import { loaders } from './paths.js';
 import type { IngestOptions, IngestSummary } from './types.js';
 
@@ -17,6 +17,11 @@ export async function ingestInput(name: string, sink: FlowSink, opts: IngestOpti
     ({ head, read, source } = await peekSource(gunzipSource(source), 64));
   }
   src = source;
+  const packed = opts.inputFormat ? null : packedFormat(head);
+  if (packed) {
+    await src.close();
+    throw new Error(`${name}: ${packed}; unpack it first (gzip is read directly)`);
+  }
   let format = opts.inputFormat ?? sniffFormat(head);
   if (!format) {
     await src.close();

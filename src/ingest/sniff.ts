@@ -29,3 +29,20 @@ export function sniffFormat(h: Uint8Array): InputFormat | null {
   }
   return null;
 }
+
+/** Compressed and archive formats by their magic numbers (each format's own specification; from memory). */
+const PACKED: readonly { name: string; magic: readonly number[] }[] = [
+  { name: 'zstd-compressed', magic: [0x28, 0xb5, 0x2f, 0xfd] },
+  { name: 'xz-compressed', magic: [0xfd, 0x37, 0x7a, 0x58, 0x5a, 0x00] },
+  // "BZh", a block-size digit, then the first block's magic (0x314159265359): letters alone would be a CSV header
+  { name: 'bzip2-compressed', magic: [0x42, 0x5a, 0x68, -1, 0x31, 0x41, 0x59, 0x26, 0x53, 0x59] },
+  { name: 'lz4-compressed', magic: [0x04, 0x22, 0x4d, 0x18] },
+  { name: 'a zip archive', magic: [0x50, 0x4b, 0x03, 0x04] },
+  { name: 'a 7z archive', magic: [0x37, 0x7a, 0xbc, 0xaf, 0x27, 0x1c] },
+];
+
+/** What an unrecognised input is when its first bytes say it is packed (null otherwise): for the error line. */
+export function packedFormat(h: Uint8Array): string | null {
+  for (const p of PACKED) if (p.magic.every((m, i) => i < h.length && (m < 0 || h[i] === m))) return p.name;
+  return null;
+}
