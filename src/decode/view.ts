@@ -61,4 +61,9 @@ export class PacketView {
   l4Limit = 0;
   /** The datagram came whole, not as the first of several fragments. */
   unfragmented = true;
+  /**
+   * The packet's time (epoch ms), set by whoever hands the view on: a double field is updated in
+   * place, where a double passed as an argument to a call that is not inlined is boxed anew each time.
+   */
+  tsMs = Number.NaN;
 }

@@ -35,7 +35,8 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
     if (!(ts <= span[1]!)) span[1] = ts;
     if (decoder.decode(buf, off, capLen, linkType)) {
       if (view.proto === 17 && isExportDatagram(buf, view.l4Offset, view.l4Limit, view.sport, view.dport)) exportLike++;
-      table.add(view, ts);
+      view.tsMs = ts;
+      table.add(view);
     } else table.advance(ts);
   };
   let stoppedBy: InputProblem | undefined;

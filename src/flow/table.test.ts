@@ -13,7 +13,8 @@ function harness(opts: Partial<FlowTableOptions> = {}) {
   const d = new Decoder();
   const send = (frame: Uint8Array, ts: number, linkType = 101) => {
     expect(d.decode(frame, 0, frame.length, linkType)).toBe(true);
-    table.add(d.view, ts);
+    d.view.tsMs = ts;
+    table.add(d.view);
   };
   return { out, table, send };
 }
@@ -213,7 +214,8 @@ describe('FlowTable: window cuts, timeouts and the cap', () => {
       const sp = 1000 + ((rnd() * 20) | 0);
       const f = rnd() < 0.5 ? u4(a, b, sp, 53) : u4(b, a, 53, sp);
       d.decode(f, 0, f.length, 101);
-      table.add(d.view, T0 + i * 3);
+      d.view.tsMs = T0 + i * 3;
+      table.add(d.view);
       sent++;
     }
     table.flush();

@@ -118,8 +118,9 @@ export class FlowTable {
     this.grow(Math.min(INITIAL_CAPACITY, this.maxFlows));
   }
 
-  /** Counts one decoded packet seen at `tsMs` (epoch ms). */
-  add(v: PacketView, tsMs: number): void {
+  /** Counts one decoded packet, seen at the view's `tsMs` (epoch ms). */
+  add(v: PacketView): void {
+    const tsMs = v.tsMs;
     if (tsMs > this.clock) {
       if (tsMs < this.nextDueAt) this.clock = tsMs;
       else this.advance(tsMs);
@@ -162,7 +163,8 @@ export class FlowTable {
       f = reply ? this.create(h, fam, proto, d, dport, s, sport, v.vlan) : this.create(h, fam, proto, s, sport, d, dport, v.vlan);
       dir = reply ? 1 : 0;
     }
-    this.count(f, dir, tsMs, v.ipBytes, v.tcpFlags);
+    this.pktTs = tsMs;
+    this.count(f, dir, v.ipBytes, v.tcpFlags);
   }
 
   /** Moves event time forward to `tsMs` (never back), cutting and expiring what is due. */
@@ -250,8 +252,11 @@ export class FlowTable {
     return ts >= this.windowStart(first) + this.windowMs;
   }
 
-  private count(f: number, dir: number, ts: number, octets: number, tcpFlags: number): void {
-    const u = this.u, dd = this.d;
+  /** The time of the packet being counted (a field: see PacketView.tsMs). */
+  private pktTs = Number.NaN;
+
+  private count(f: number, dir: number, octets: number, tcpFlags: number): void {
+    const u = this.u, dd = this.d, ts = this.pktTs;
     const o = f * W, p = f * D;
     let pending = u[o + W_PKTS]! + u[o + W_PKTS + 1]! > 0;
     if (pending && this.dueCut(dd[p + D_FIRST]!, ts)) {

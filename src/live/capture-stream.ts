@@ -47,7 +47,7 @@ export class LiveCapture {
     const onPacket: PacketSink = (buf, off, capLen, _origLen, tsSec, tsNs, linkType) => {
       const ts = tsSec * 1000 + tsNs / 1e6;
       onTime?.(ts);
-      if (decoder.decode(buf, off, capLen, linkType)) table.add(view, ts);
+      if (decoder.decode(buf, off, capLen, linkType)) { view.tsMs = ts; table.add(view); }
       else table.advance(ts);
     };
     this.parser = new CaptureParser(opts.file, onPacket, opts.onProblem);
