@@ -2,13 +2,14 @@ import { readCapture } from '../capture/read.js';
 import type { PacketSink } from '../capture/types.js';
 import { Decoder } from '../decode/decoder.js';
 import type { FlowSink } from '../flow/record.js';
+import { isExportDatagram } from '../ingest/export-sniff.js';
 import type { ByteSource } from '../ingest/source.js';
 import type { IngestOptions, IngestSummary } from '../ingest/types.js';
 import type { InputProblem } from '../util/problem.js';
 import { AddressTexts } from './addr-cache.js';
 import { IPFIX_VERSION, IpfixDecoder } from './ipfix.js';
 import { NetflowV5Decoder, V5_VERSION } from './netflow5.js';
-import { NetflowV9Decoder, V9_VERSION } from './netflow9.js';
+import { NetflowV9Decoder } from './netflow9.js';
 import { TemplateBudget, type ExportSession } from './session.js';
 
 /** Exporters (address and port) followed in one capture, as the collector does (ours, no source). */
@@ -92,11 +93,13 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
     }
     const l4 = v.l4Offset;
     const payload = l4 + 8;
-    const version = payload + 2 <= v.l4Limit ? (buf[payload]! << 8) | buf[payload + 1]! : -1;
-    if (version !== IPFIX_VERSION && version !== V9_VERSION && version !== V5_VERSION) {
+    // an export datagram by the same rule as the sniffing: the version word on a collector port, the
+    // whole datagram's structure on any other (a DNS query with id 9 is not a NetFlow packet)
+    if (!isExportDatagram(buf, l4, v.l4Limit, v.sport, v.dport)) {
       count.otherPackets++;
       return;
     }
+    const version = (buf[payload]! << 8) | buf[payload + 1]!;
     if (!v.unfragmented) {
       count.fragmentedDatagrams++;
       return;

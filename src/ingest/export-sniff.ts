@@ -8,16 +8,32 @@ const MIN_EXPORTS = 8;
 const MIN_SHARE = 0.8;
 
 /**
- * A UDP payload that starts like a flow-export message: IPFIX (version 10, length >= 16, RFC 7011
- * section 3.1), NetFlow v9 (version 9, RFC 3954 section 5.1) or v5 (version 5, 1..30 records), sent to
- * or from a collector port (4739 IPFIX, IANA; 2055, 9995, 9996 NetFlow: common practice, no source).
+ * A UDP datagram that carries a flow-export message. To or from a collector port (4739 IPFIX, IANA;
+ * 2055, 9995, 9996 NetFlow: common practice, no source) a plausible version word is enough: IPFIX
+ * (version 10, length >= 16, RFC 7011 section 3.1), NetFlow v9 (version 9, RFC 3954 section 5.1) or v5
+ * (version 5, 1..30 records). On any other port the message must also fill the datagram exactly: the
+ * IPFIX length, v5's 24 + 48 * count octets, or v9's FlowSets walked to the end.
  */
 export function isExportDatagram(b: Uint8Array, l4: number, limit: number, sport: number, dport: number): boolean {
-  if (!isExportPort(dport) && !isExportPort(sport)) return false;
   const p = l4 + 8;
   if (l4 < 0 || p + 4 > limit || b[p] !== 0) return false;
-  const n = (b[p + 2]! << 8) | b[p + 3]!;
-  return b[p + 1] === 9 || (b[p + 1] === 10 && n >= 16) || (b[p + 1] === 5 && n >= 1 && n <= 30);
+  const v = b[p + 1]!, n = (b[p + 2]! << 8) | b[p + 3]!;
+  const known = isExportPort(dport) || isExportPort(sport);
+  // the datagram's own length (UDP length field), bounded by what was captured
+  const udpEnd = l4 + ((b[l4 + 4]! << 8) | b[l4 + 5]!);
+  if (v === 10) return n >= 16 && (known || p + n === udpEnd);
+  if (v === 5) return n >= 1 && n <= 30 && (known || p + 24 + 48 * n === udpEnd);
+  if (v !== 9) return false;
+  if (known) return true;
+  // v9: a 20-octet header, then FlowSets (id 0, 1 or >= 256; length >= 4) ending exactly at the datagram end
+  let q = p + 20;
+  if (udpEnd > limit || q > udpEnd) return false;
+  while (q + 4 <= udpEnd) {
+    const id = (b[q]! << 8) | b[q + 1]!, len = (b[q + 2]! << 8) | b[q + 3]!;
+    if (len < 4 || (id > 1 && id < 256)) return false;
+    q += len;
+  }
+  return q === udpEnd;
 }
 
 function isExportPort(p: number): boolean {
