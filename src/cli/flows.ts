@@ -150,7 +150,7 @@ function seconds(flag: string, text: string | undefined, zeroOk: boolean): numbe
 }
 
 function summaryText(name: string, s: IngestSummary): string {
-  const span = Number.isFinite(s.firstMs) ? `${rfc3339(s.firstMs)} .. ${rfc3339(s.lastMs)}` : 'no packets';
+  const span = Number.isFinite(s.firstMs) ? `${rfc3339(s.firstMs)} .. ${rfc3339(s.lastMs)}` : 'no flows';
   const unit = s.format === 'pcap' || s.format === 'pcapng' ? 'packets' : s.format === 'export-capture' ? `packets, ${s.records} records` : 'records';
   const lines = [`${name}: ${s.format}, ${s.packets} ${unit}, ${s.bytes} bytes, ${s.flows} flow records, ${span}`];
   for (const note of inputNotes(s)) lines.push(`${name}: ${note}`);
