@@ -51,6 +51,29 @@ describe('decoder robustness (fast-check)', () => {
     expect(d.stats.decoded).toBeGreaterThan(0);
   });
 
+  it('the one-place decoding of plain Ethernet/IPv4/TCP|UDP fills the view exactly as the general path does', () => {
+    // the same IP packet behind Ethernet (where the short path applies) and behind Linux SLL2 (general path)
+    const fields = (v: Decoder['view'], shift: number) => [v.family, v.proto, v.src4, v.dst4, v.ipBytes, v.sport, v.dport, v.tcpFlags,
+      v.icmpType, v.icmpCode, v.icmpError, v.icmpUnreachable, v.quoted.valid, v.fragment, v.l4Offset < 0 ? -1 : v.l4Offset - shift, v.l4Limit - shift, v.unfragmented, v.vlan];
+    const a = new Decoder(), b = new Decoder();
+    const packet = fc.record({
+      proto: fc.constantFrom(6, 17, 17, 6, 1, 47), sport: fc.integer({ min: 0, max: 65535 }), dport: fc.constantFrom(53, 443, 4789, 6081, 0, 65535),
+      flags: fc.integer({ min: 0, max: 255 }), len: fc.nat(64), frag: fc.constantFrom(0, 0, 0x4000, 0x2000, 0x0001, 0x6000),
+    }).map((o) => ipv4({ src: '192.0.2.1', dst: '198.51.100.2', proto: o.proto, fragOffset: o.frag & 0x1fff, moreFragments: (o.frag & 0x2000) !== 0,
+      payload: o.proto === 6 ? tcp(o.sport, o.dport, o.flags, o.len) : o.proto === 17 ? udp(o.sport, o.dport, o.len) : new Uint8Array(o.len + 8) }));
+    fc.assert(fc.property(packet, fc.array(fc.tuple(fc.nat(), fc.integer({ min: 0, max: 255 })), { maxLength: 3 }), fc.nat(), (ip, edits, cut) => {
+      const p = Uint8Array.from(ip);
+      for (const [pos, val] of edits) p[pos % p.length] = val;
+      const n = cut % (p.length + 1);
+      const eth = concat([2, 0, 0, 0, 0, 1, 2, 0, 0, 0, 0, 2, 0x08, 0x00], p.subarray(0, n));
+      const sll2 = concat([0x08, 0x00], new Uint8Array(18), p.subarray(0, n));
+      const okA = a.decode(eth, 0, eth.length, 1), okB = b.decode(sll2, 0, sll2.length, 276);
+      expect(okA).toBe(okB);
+      if (okA) expect(fields(a.view, 14)).toEqual(fields(b.view, 20));
+    }), { numRuns: 5000 });
+    expect(a.stats.toObject()).toEqual(b.stats.toObject());
+  });
+
   it('a capLen longer than the buffer is clamped, not read past', () => {
     const d = new Decoder();
     expect(() => d.decode(valid[0]!.subarray(0, 30), 0, 9999, 1)).not.toThrow();

@@ -1,7 +1,7 @@
 import { u16 } from './bytes.js';
 import { IpLayer } from './ip.js';
 import { DecodeStats, R } from './stats.js';
-import { PacketView } from './view.js';
+import { Fragment, PacketView } from './view.js';
 
 /** VLAN tags followed per frame at most (METHODS.md 2.1: cap the depth). */
 export const MAX_VLAN_TAGS = 4;
@@ -45,9 +45,55 @@ export class Decoder {
     }
     const b = this.lastPlain;
     const end = off + capLen > b.length ? b.length : off + capLen;
-    const ok = this.link(b, off, end, linkType);
+    const ok = (linkType === 1 && this.common(b, off, end)) || this.link(b, off, end, linkType);
     if (ok) this.stats.decoded++;
     return ok;
+  }
+
+  /**
+   * The packet most captures are made of, decoded in one place: untagged Ethernet, IPv4 without
+   * options or fragmentation, a whole TCP or UDP header, no tunnel. It fills the view exactly as the
+   * general path below would (decoder.test.ts compares the two on random frames); anything else, or
+   * any doubt, returns false and the general path decodes the packet from its start.
+   */
+  private common(b: Uint8Array, p: number, end: number): boolean {
+    const ip = p + 14;
+    if (ip + 20 > end || b[p + 12] !== 0x08 || b[p + 13] !== 0x00 || b[ip] !== 0x45) return false;
+    const total = (b[ip + 2]! << 8) | b[ip + 3]!;
+    // MF or a fragment offset; a total length of 0 (offload) or shorter than the header
+    if ((b[ip + 6]! & 0x3f) !== 0 || b[ip + 7] !== 0 || total < 28) return false;
+    const proto = b[ip + 9]!;
+    const ipEnd = ip + total;
+    const limit = ipEnd < end ? ipEnd : end;
+    const l4 = ip + 20;
+    let flags = 0;
+    if (proto === 6) {
+      if (l4 + 20 > limit || b[l4 + 12]! >>> 4 < 5) return false;
+      flags = b[l4 + 13]!;
+    } else if (proto === 17) {
+      if (l4 + 8 > limit) return false;
+      const dport = (b[l4 + 2]! << 8) | b[l4 + 3]!;
+      if (dport === VXLAN_PORT || dport === GENEVE_PORT) return false;
+    } else return false;
+    const v = this.view;
+    v.family = 4;
+    v.proto = proto;
+    v.src4 = ((b[ip + 12]! << 24) | (b[ip + 13]! << 16) | (b[ip + 14]! << 8) | b[ip + 15]!) >>> 0;
+    v.dst4 = ((b[ip + 16]! << 24) | (b[ip + 17]! << 16) | (b[ip + 18]! << 8) | b[ip + 19]!) >>> 0;
+    v.ipBytes = total;
+    v.sport = (b[l4]! << 8) | b[l4 + 1]!;
+    v.dport = (b[l4 + 2]! << 8) | b[l4 + 3]!;
+    v.tcpFlags = flags;
+    v.icmpType = -1;
+    v.icmpCode = -1;
+    v.icmpError = false;
+    v.icmpUnreachable = false;
+    v.quoted.valid = false;
+    v.fragment = Fragment.None;
+    v.l4Offset = l4;
+    v.l4Limit = limit;
+    v.unfragmented = true;
+    return true;
   }
 
   private link(b: Uint8Array, p: number, end: number, linkType: number): boolean {
