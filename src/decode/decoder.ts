@@ -1,7 +1,7 @@
 import { u16 } from './bytes.js';
 import { IpLayer } from './ip.js';
 import { DecodeStats, R } from './stats.js';
-import { Fragment, PacketView } from './view.js';
+import { PacketView } from './view.js';
 
 /** VLAN tags followed per frame at most (METHODS.md 2.1: cap the depth). */
 export const MAX_VLAN_TAGS = 4;
@@ -81,15 +81,10 @@ export class Decoder {
     v.src4 = ((b[ip + 12]! << 24) | (b[ip + 13]! << 16) | (b[ip + 14]! << 8) | b[ip + 15]!) >>> 0;
     v.dst4 = ((b[ip + 16]! << 24) | (b[ip + 17]! << 16) | (b[ip + 18]! << 8) | b[ip + 19]!) >>> 0;
     v.ipBytes = total;
+    v.clearTransport();
     v.sport = (b[l4]! << 8) | b[l4 + 1]!;
     v.dport = (b[l4 + 2]! << 8) | b[l4 + 3]!;
     v.tcpFlags = flags;
-    v.icmpType = -1;
-    v.icmpCode = -1;
-    v.icmpError = false;
-    v.icmpUnreachable = false;
-    v.quoted.valid = false;
-    v.fragment = Fragment.None;
     v.l4Offset = l4;
     v.l4Limit = limit;
     v.unfragmented = true;

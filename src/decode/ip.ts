@@ -81,17 +81,7 @@ export class IpLayer {
   }
 
   private clearTransport(): void {
-    const v = this.v;
-    v.sport = 0;
-    v.dport = 0;
-    v.tcpFlags = 0;
-    v.icmpType = -1;
-    v.icmpCode = -1;
-    v.icmpError = false;
-    v.icmpUnreachable = false;
-    v.quoted.valid = false;
-    v.fragment = Fragment.None;
-    v.l4Offset = -1;
+    this.v.clearTransport();
   }
 
   /**

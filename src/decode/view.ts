@@ -66,4 +66,18 @@ export class PacketView {
    * place, where a double passed as an argument to a call that is not inlined is boxed anew each time.
    */
   tsMs = Number.NaN;
+
+  /** Before a transport header is read: no ports, flags, ICMP meaning, quote or fragment tie yet. */
+  clearTransport(): void {
+    this.sport = 0;
+    this.dport = 0;
+    this.tcpFlags = 0;
+    this.icmpType = -1;
+    this.icmpCode = -1;
+    this.icmpError = false;
+    this.icmpUnreachable = false;
+    this.quoted.valid = false;
+    this.fragment = Fragment.None;
+    this.l4Offset = -1;
+  }
 }
