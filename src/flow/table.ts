@@ -103,6 +103,8 @@ export class FlowTable {
   private readonly text4 = new Ipv4TextCache();
   private readonly text6 = new Ipv6TextCache();
   private dir = 0;
+  /** The flow the last packet went to (-1 none): tried first. A freed or reused block fails the key check. */
+  private lastFlow = -1;
 
   constructor(opts: FlowTableOptions, private readonly sink: FlowSink) {
     this.windowMs = opts.windowMs;
@@ -324,22 +326,30 @@ export class FlowTable {
 
   /** Flow id for the key, or -1; sets `this.dir` (0 when the sender is the flow's initiator). */
   private find(h: number, fam: number, proto: number, s: Uint32Array, sport: number, d: Uint32Array, dport: number): number {
-    const index = this.index, mask = this.mask, u = this.u;
-    const key = fam | (proto << 8);
-    const fwd = ((sport << 16) | dport) >>> 0;
-    const rev = ((dport << 16) | sport) >>> 0;
+    // packets of one flow come in runs (a transfer's segments, a flood): the last flow found is tried
+    // first, in a block still in cache, before the index
+    const last = this.lastFlow;
+    if (last >= 0 && this.u[last * W + W_HASH] === h && this.matches(last, fam, proto, s, sport, d, dport)) return last;
+    const index = this.index, mask = this.mask;
     const tag = h | 0;
     for (let i = h & mask; ; i = (i + 1) & mask) {
       const e = index[2 * i + 1]!;
       if (e === 0) return -1;
       // the hash beside the id spares a visit to every other flow's block on the probe path
       if (index[2 * i] !== tag) continue;
-      const f = e - 1, o = f * W;
-      if ((u[o + W_META]! & 0xffff) !== key) continue;
-      const ports = u[o + W_PORTS], a0 = u[o + W_A], b0 = u[o + W_B];
-      if (ports === fwd && a0 === s[0] && b0 === d[0] && (fam === 4 || this.sameV6(f, s, d))) { this.dir = 0; return f; }
-      if (ports === rev && a0 === d[0] && b0 === s[0] && (fam === 4 || this.sameV6(f, d, s))) { this.dir = 1; return f; }
+      const f = e - 1;
+      if (this.matches(f, fam, proto, s, sport, d, dport)) return (this.lastFlow = f);
     }
+  }
+
+  /** Whether flow `f` has this key, either way round; sets `this.dir`. */
+  private matches(f: number, fam: number, proto: number, s: Uint32Array, sport: number, d: Uint32Array, dport: number): boolean {
+    const u = this.u, o = f * W;
+    if ((u[o + W_META]! & 0xffff) !== (fam | (proto << 8))) return false;
+    const ports = u[o + W_PORTS], a0 = u[o + W_A], b0 = u[o + W_B];
+    if (ports === (((sport << 16) | dport) >>> 0) && a0 === s[0] && b0 === d[0] && (fam === 4 || this.sameV6(f, s, d))) { this.dir = 0; return true; }
+    if (ports === (((dport << 16) | sport) >>> 0) && a0 === d[0] && b0 === s[0] && (fam === 4 || this.sameV6(f, d, s))) { this.dir = 1; return true; }
+    return false;
   }
 
   private sameV6(f: number, a: Uint32Array, b: Uint32Array): boolean {
@@ -372,6 +382,7 @@ export class FlowTable {
     dd[p + D_OCTETS] = 0; dd[p + D_OCTETS + 1] = 0;
     this.closeAt[f] = 0;
     this.insertIndex(f, h);
+    this.lastFlow = f;
     this.stats.flowsCreated++;
     this.stats.active++;
     return f;
