@@ -6,21 +6,14 @@ import { isExportDatagram } from '../ingest/export-sniff.js';
 import type { ByteSource } from '../ingest/source.js';
 import type { IngestOptions, IngestSummary } from '../ingest/types.js';
 import type { InputProblem } from '../util/problem.js';
-import { AddressTexts } from './addr-cache.js';
-import { IPFIX_VERSION, IpfixDecoder } from './ipfix.js';
-import { NetflowV5Decoder, V5_VERSION } from './netflow5.js';
-import { NetflowV9Decoder } from './netflow9.js';
-import { TemplateBudget, type ExportSession } from './session.js';
+import { Ipv4TextCache, Ipv6TextCache } from '../flow/addr-text.js';
+import { ExporterDecoder } from './exporter-decoder.js';
+import { IPFIX_VERSION } from './ipfix.js';
+import { V5_VERSION } from './netflow5.js';
+import { TemplateBudget } from './session.js';
 
 /** Exporters (address and port) followed in one capture, as the collector does (ours, no source). */
 export const MAX_CAPTURED_EXPORTERS = 4096;
-
-interface CapturedExporter {
-  session: ExportSession;
-  ipfix?: IpfixDecoder;
-  v9?: NetflowV9Decoder;
-  v5?: NetflowV5Decoder;
-}
 
 /**
  * A capture (pcap or pcapng) of flow-export traffic: each UDP datagram that carries an IPFIX message
@@ -34,9 +27,8 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
   const decoder = new Decoder();
   const v = decoder.view;
   const budget = new TemplateBudget();
-  const exporters = new Map<string, CapturedExporter>();
-  const texts = new AddressTexts();
-  const key6 = new Uint8Array(16);
+  const exporters = new Map<string, ExporterDecoder>();
+  const text4 = new Ipv4TextCache(), text6 = new Ipv6TextCache();
   const count = { exportDatagrams: 0, otherPackets: 0, fragmentedDatagrams: 0, truncatedDatagrams: 0, exportersOverCap: 0 };
   let stoppedBy: InputProblem | undefined;
   const onProblem = (p: InputProblem) => {
@@ -60,45 +52,29 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
     },
   };
 
-  const exporterFor = (version: number): CapturedExporter | null => {
-    let addr: string;
-    if (v.family === 4) addr = texts.v4(v.src4);
-    else {
-      for (let i = 0; i < 4; i++) { const w = v.src6[i]!; key6[4 * i] = w >>> 24; key6[4 * i + 1] = (w >>> 16) & 255; key6[4 * i + 2] = (w >>> 8) & 255; key6[4 * i + 3] = w & 255; }
-      addr = `[${texts.v6(key6, 0)}]`;
-    }
+  const exporterFor = (version: number): ExporterDecoder | null => {
+    const s6 = v.src6;
+    const addr = v.family === 4 ? text4.text(v.src4) : `[${text6.text(s6[0]!, s6[1]!, s6[2]!, s6[3]!)}]`;
     const name = `${addr}:${v.sport}`;
     const k = `${version} ${name}`;
     let e = exporters.get(k);
     if (e) return e;
     if (exporters.size >= MAX_CAPTURED_EXPORTERS) { count.exportersOverCap++; return null; }
-    if (version === IPFIX_VERSION) {
-      const ipfix = new IpfixDecoder(src.name, name, sink, budget, onProblem);
-      e = { session: ipfix.session, ipfix };
-    } else if (version === V5_VERSION) {
-      const v5 = new NetflowV5Decoder(src.name, name, sink, budget, onProblem);
-      e = { session: v5.session, v5 };
-    } else {
-      const v9 = new NetflowV9Decoder(src.name, name, sink, budget, onProblem);
-      e = { session: v9.session, v9 };
-    }
+    const format = version === IPFIX_VERSION ? 'ipfix' : version === V5_VERSION ? 'netflow5' : 'netflow9';
+    e = new ExporterDecoder(format, src.name, name, sink, budget, onProblem);
     exporters.set(k, e);
     return e;
   };
 
   const onPacket: PacketSink = (buf, off, capLen, _origLen, _tsSec, _tsNs, linkType, fileOff) => {
-    if (!decoder.decode(buf, off, capLen, linkType) || v.proto !== 17 || v.l4Offset < 0 || v.l4Offset + 8 > v.l4Limit) {
+    // an export datagram by the same rule as the sniffing: the version word on a collector port, the
+    // whole datagram's structure on any other (a DNS query with id 9 is not a NetFlow packet)
+    if (!decoder.decode(buf, off, capLen, linkType) || v.proto !== 17 || !isExportDatagram(buf, v.l4Offset, v.l4Limit, v.sport, v.dport)) {
       count.otherPackets++;
       return;
     }
     const l4 = v.l4Offset;
     const payload = l4 + 8;
-    // an export datagram by the same rule as the sniffing: the version word on a collector port, the
-    // whole datagram's structure on any other (a DNS query with id 9 is not a NetFlow packet)
-    if (!isExportDatagram(buf, l4, v.l4Limit, v.sport, v.dport)) {
-      count.otherPackets++;
-      return;
-    }
     const version = (buf[payload]! << 8) | buf[payload + 1]!;
     if (!v.unfragmented) {
       count.fragmentedDatagrams++;
@@ -112,15 +88,7 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
       count.truncatedDatagrams++;
       onProblem({ file: src.name, offset: inputOff, reason: 'truncated-datagram', message: `export datagram cut by the capture (${udpEnd - v.l4Limit} bytes missing); decoded as far as it goes`, fatal: false });
     }
-    const e = exporterFor(version);
-    if (!e) return;
-    if (e.ipfix) {
-      const used = e.ipfix.decodeMessage(buf, payload, end - payload, inputOff);
-      if (used > 0 && payload + used < end) e.session.problem('trailing-bytes', inputOff + used, `${end - payload - used} bytes after the IPFIX message in a datagram`);
-    } else if (e.v5) {
-      const used = e.v5.decodePacket(buf, payload, end - payload, inputOff);
-      if (used > 0 && payload + used < end) e.session.problem('trailing-bytes', inputOff + used, `${end - payload - used} bytes after the NetFlow v5 packet in a datagram`);
-    } else e.v9!.decodePacket(buf, payload, end, inputOff);
+    exporterFor(version)?.datagram(buf, payload, end - payload, inputOff);
   };
 
   const cap = await readCapture(source, onPacket, onProblem);
@@ -128,7 +96,7 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
   const problems: Record<string, number> = { ...cap.problemCounts };
   let bytes = 0, flows = 0, firstMs = NaN, lastMs = NaN;
   for (const e of exporters.values()) {
-    (e.ipfix ?? e.v9 ?? e.v5)!.finish();
+    e.finish();
     const c = e.session.counters;
     for (const [k, n] of Object.entries(c.toObject())) counters[k] = k === 'samplingInterval' ? Math.max(counters[k] ?? 0, n) : (counters[k] ?? 0) + n;
     for (const [k, n] of Object.entries(c.problems.toObject())) problems[k] = (problems[k] ?? 0) + n;

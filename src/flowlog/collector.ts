@@ -5,9 +5,8 @@ import { StreamSource } from '../ingest/source.js';
 import type { InputProblem } from '../util/problem.js';
 import { ipfixFileStep } from './file-ingest.js';
 import { driveFrames } from './framing.js';
-import { IpfixDecoder } from './ipfix.js';
-import { NetflowV5Decoder, V5_VERSION } from './netflow5.js';
-import { NetflowV9Decoder } from './netflow9.js';
+import { ExporterDecoder, type ExportFormat } from './exporter-decoder.js';
+import { V5_VERSION } from './netflow5.js';
 import { TemplateBudget, type ExportSession } from './session.js';
 
 /** Where to listen, each `HOST:PORT` (`[v6]:PORT`; a bare `PORT` or `:PORT` binds 127.0.0.1). */
@@ -41,7 +40,7 @@ export interface ExporterCounts {
 export interface ExporterStats extends ExporterCounts {
   /** `ADDR:PORT` of the exporter (IPv6 in brackets). */
   exporter: string;
-  format: 'ipfix' | 'netflow9' | 'netflow5';
+  format: ExportFormat;
   transport: 'udp' | 'tcp';
 }
 
@@ -103,13 +102,10 @@ function remoteName(address: string, port: number): string {
 
 interface Exporter {
   name: string;
-  format: 'ipfix' | 'netflow9' | 'netflow5';
   transport: 'udp' | 'tcp';
+  dec: ExporterDecoder;
   session: ExportSession;
   datagrams: number;
-  ipfix?: IpfixDecoder;
-  v9?: NetflowV9Decoder;
-  v5?: NetflowV5Decoder;
 }
 
 /**
@@ -129,21 +125,13 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
   let overCap = 0, datagramsOverCap = 0;
   const addrs: CollectorAddresses = {};
 
-  const exporter = (key: string, format: Exporter['format'], transport: Exporter['transport']): Exporter | null => {
+  const exporter = (key: string, format: ExportFormat, transport: Exporter['transport']): Exporter | null => {
     let e = exporters.get(key);
     if (e) return e;
     if (exporters.size >= maxExporters) { overCap++; return null; }
     const name = key.slice(key.indexOf(' ') + 1);
-    if (format === 'ipfix') {
-      const ipfix = new IpfixDecoder(name, name, sink, budget, onProblem);
-      e = { name, format, transport, session: ipfix.session, datagrams: 0, ipfix };
-    } else if (format === 'netflow5') {
-      const v5 = new NetflowV5Decoder(name, name, sink, budget, onProblem);
-      e = { name, format, transport, session: v5.session, datagrams: 0, v5 };
-    } else {
-      const v9 = new NetflowV9Decoder(name, name, sink, budget, onProblem);
-      e = { name, format, transport, session: v9.session, datagrams: 0, v9 };
-    }
+    const dec = new ExporterDecoder(format, name, name, sink, budget, onProblem);
+    e = { name, transport, dec, session: dec.session, datagrams: 0 };
     exporters.set(key, e);
     return e;
   };
@@ -156,18 +144,11 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
     sock.on('message', (msg: Buffer, r: RemoteInfo) => {
       if (msg.length > maxDatagram) { datagramsOverCap++; return; }
       // the NetFlow port takes v5 as well as v9: the datagram's version word says which
-      const format: Exporter['format'] = listening === 'netflow9' && msg.length >= 2 && msg[0] === 0 && msg[1] === V5_VERSION ? 'netflow5' : listening;
+      const format: ExportFormat = listening === 'netflow9' && msg.length >= 2 && msg[0] === 0 && msg[1] === V5_VERSION ? 'netflow5' : listening;
       const e = exporter(`${format} ${remoteName(r.address, r.port)}`, format, 'udp');
       if (!e) return;
       e.datagrams++;
-      if (e.ipfix) {
-        // one message per datagram (RFC 7011 section 10.3.3); a shorter message leaves the rest unread
-        const used = e.ipfix.decodeMessage(msg, 0, msg.length, 0);
-        if (used > 0 && used < msg.length) e.session.problem('trailing-bytes', used, `${msg.length - used} bytes after the IPFIX message in a datagram`);
-      } else if (e.v5) {
-        const used = e.v5.decodePacket(msg, 0, msg.length, 0);
-        if (used > 0 && used < msg.length) e.session.problem('trailing-bytes', used, `${msg.length - used} bytes after the NetFlow v5 packet in a datagram`);
-      } else e.v9!.decodePacket(msg, 0, msg.length, 0);
+      e.dec.datagram(msg, 0, msg.length, 0);
     });
     await new Promise<void>((resolve, reject) => {
       sock.once('error', reject);
@@ -186,7 +167,7 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
       conns.add(c);
       c.on('error', () => {}); // a reset connection ends like a closed one
       const src = new StreamSource(e.name, c);
-      void driveFrames(src, ipfixFileStep(e.ipfix!)).then((tail) => {
+      void driveFrames(src, ipfixFileStep(e.dec.ipfix!)).then((tail) => {
         if (tail > 0) e.session.problem('truncated', -1, `connection ended inside an IPFIX message (${tail} bytes left)`);
       }, (err: Error) => {
         e.session.problem('connection-error', -1, `connection failed: ${err.message}`);
@@ -220,7 +201,7 @@ export async function startCollector(listen: CollectorListen, sink: FlowSink, on
     for (const e of [...closed, ...exporters.values()]) {
       const c = e.session.counters;
       list.push({
-        exporter: e.name, format: e.format, transport: e.transport, datagrams: e.datagrams, messages: c.messages,
+        exporter: e.name, format: e.dec.format, transport: e.transport, datagrams: e.datagrams, messages: c.messages,
         records: c.records, flows: c.flows, malformed: c.problems.total, unknownTemplate: c.unknownTemplateSets,
         sequenceLost: c.sequenceLost, templatesOverCap: c.templatesOverCap, pendingOverCap: c.pendingOverCap,
       });
