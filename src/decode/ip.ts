@@ -80,16 +80,12 @@ export class IpLayer {
     return false;
   }
 
-  private clearTransport(): void {
-    this.v.clearTransport();
-  }
-
   /**
    * Transport header at `l4`, readable up to `limit`. `whole` says the datagram was captured to its end,
    * so a short header is the datagram's own (a tiny first fragment) and not the snap length.
    */
   private transport(b: Uint8Array, l4: number, limit: number, whole: boolean, firstFragment: boolean, keyFamily: 4 | 6, id: number): boolean {
-    this.clearTransport();
+    this.v.clearTransport();
     const v = this.v;
     v.l4Offset = l4;
     v.l4Limit = limit;
@@ -130,7 +126,7 @@ export class IpLayer {
 
   /** A fragment with offset != 0: no transport header; ports come from the first fragment if seen. */
   private laterFragment(keyFamily: 4 | 6, id: number, src: Uint32Array, dst: Uint32Array): boolean {
-    this.clearTransport();
+    this.v.clearTransport();
     const v = this.v;
     const ports = this.frags.lookup(keyFamily, v.proto, id, src, dst);
     if (ports < 0) {

@@ -56,6 +56,7 @@ export class PacketView {
   /**
    * Where the transport header starts in the decoded buffer, -1 for later fragments; with `l4Limit`
    * (end of the datagram's captured bytes) it lets a reader look at the payload during the callback.
+   * `l4Limit` and `unfragmented` are left from an earlier packet when `l4Offset` is -1.
    */
   l4Offset = -1;
   l4Limit = 0;

@@ -25,8 +25,8 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
   // event-time span [first, last] in a typed array: a double kept in a closure variable would be
   // boxed anew on every store
   const span = Float64Array.of(NaN, NaN);
-  // UDP datagrams to a flow-export port that start like an IPFIX or NetFlow v9 message: a capture made
-  // of them is better read with --input-format export-capture (the CLI says so)
+  // flow-export datagrams (ingest/export-sniff.ts): a capture made of them is better read with
+  // --input-format export-capture (the CLI says so)
   let exportLike = 0;
   // one closure per input, none per packet
   const onPacket: PacketSink = (buf, off, capLen, _origLen, tsSec, tsNs, linkType) => {

@@ -3,8 +3,7 @@ import type { InputFormat } from './types.js';
 /**
  * Recognises an input's format from its first bytes (after gunzip). Magic numbers: METHODS.md 1.1, 1.2
  * (pcap, pcapng), 3.9 (IPFIX version 10), 3.8 (NetFlow v9 version 9), NetFlow v5 (version 5, count
- * 1..30); text formats by their first
- * non-blank character. Returns null when nothing matches.
+ * 1..30); text formats by their first non-blank character. Returns null when nothing matches.
  */
 export function sniffFormat(h: Uint8Array): InputFormat | null {
   if (h.length >= 4) {
@@ -18,7 +17,10 @@ export function sniffFormat(h: Uint8Array): InputFormat | null {
   }
   if (h.length >= 4 && h[0] === 0 && h[1] === 9) return 'netflow9';
   // NetFlow v5 (Cisco's export format): version 5 and a record count of 1..30
-  if (h.length >= 4 && h[0] === 0 && h[1] === 5 && ((h[2]! << 8) | h[3]!) >= 1 && ((h[2]! << 8) | h[3]!) <= 30) return 'netflow5';
+  if (h.length >= 4 && h[0] === 0 && h[1] === 5) {
+    const count = (h[2]! << 8) | h[3]!;
+    if (count >= 1 && count <= 30) return 'netflow5';
+  }
   let i = 0;
   if (h[0] === 0xef && h[1] === 0xbb && h[2] === 0xbf) i = 3; // UTF-8 BOM
   while (i < h.length && (h[i] === 0x20 || h[i] === 0x09 || h[i] === 0x0d || h[i] === 0x0a)) i++;

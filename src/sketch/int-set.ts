@@ -15,26 +15,24 @@ export class IntSet {
 
   /** Adds key; true when it was not in the set. */
   add(key: number): boolean {
-    const keys = this.keys, mask = this.mask;
-    let slot = hash(key) & mask;
-    for (let k = keys[slot]!; k !== EMPTY; k = keys[slot]!) {
-      if (k === key) return false;
-      slot = (slot + 1) & mask;
-    }
-    keys[slot] = key;
+    const slot = this.slotOf(key);
+    if (this.keys[slot] === key) return false;
+    this.keys[slot] = key;
     this.used[this.size++] = slot;
-    if (2 * this.size > mask) this.grow();
+    if (2 * this.size > this.mask) this.grow();
     return true;
   }
 
   has(key: number): boolean {
+    return this.keys[this.slotOf(key)] === key;
+  }
+
+  /** The slot holding `key`, or the empty slot where it would go (linear probing). */
+  private slotOf(key: number): number {
     const keys = this.keys, mask = this.mask;
     let slot = hash(key) & mask;
-    for (let k = keys[slot]!; k !== EMPTY; k = keys[slot]!) {
-      if (k === key) return true;
-      slot = (slot + 1) & mask;
-    }
-    return false;
+    for (let k = keys[slot]!; k !== EMPTY && k !== key; k = keys[slot]!) slot = (slot + 1) & mask;
+    return slot;
   }
 
   /** Calls fn for each key, in insertion order. */
