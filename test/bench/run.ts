@@ -84,6 +84,9 @@ export const benches: Bench[] = [
   { name: 'pcap-parser packet loop (npm, count only)', input: 'capture', run: (f) => child('pcap-parser', f) },
   { name: 'plain loop: framing, IP, ports, bidirectional counts (plain-loop.ts, no output)', input: 'capture', run: (f) => child('plain-loop', f) },
   { name: 'replay: capture -> alerts (reading thread + detectors, as replay runs)', input: 'capture', run: (f) => child('replay', f), target: { perSecond: 2e6, vsPcapParser: 3, maxRssMB: 600 } },
+  // replay's two threads apart: what each does alone, on a core of its own
+  { name: '  its reading thread alone: capture -> flow records, counted', input: 'capture', run: (f) => child('records', f) },
+  { name: '  its main thread alone: records held in memory -> windows, detectors', input: 'capture', run: (f) => child('windows', f) },
   { name: 'replay --no-read-thread (one thread)', input: 'capture', run: (f) => child('replay-main', f) },
   { name: 'replay host scaling: 1 M distinct hosts x 3 windows (records)', input: 'own', run: () => child('hosts', '1000000'), target: { maxRssMB: 1500 } },
   { name: 'IPFIX file decode, 2.1 M records (records)', input: 'own', run: () => ipfixChild(), target: { perSecond: 2e6, maxRssMB: 300 } },
@@ -137,6 +140,7 @@ try {
   process.stdout.write('seconds = wall time (in the child, startup excluded, except for the whole-process CLI row); CPU s = user + system time of the child;\n'
     + 'vs pcap-parser compares packets per wall second, CPU vs pcap-parser packets per CPU second (both children read the same file);\n'
     + 'the plain loop is the least work that counts bidirectional flows (DESIGN.md section 9: about 5.4 M packets/s), a ceiling for the capture rows;\n'
+    + "replay's two threads share the machine's cores with each other and with V8's compiler and collector threads: replay runs at best at the rate of the slower of its two rows alone;\n"
     + `the machine is shared, so compare rows of one run rather than runs${repeat > 1 ? ` (fastest of ${repeat} runs each)` : ''}.\n`);
 } finally {
   if (!args.includes('--keep')) rmSync(dir, { recursive: true, force: true });
