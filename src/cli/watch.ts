@@ -14,7 +14,7 @@ import { summarise } from './rules.js';
 interface WatchRaw extends RawSensorOptions {
   out?: string; format?: string; color?: boolean; state?: string; showSuppressed?: boolean;
   syslog: string[]; follow: string[]; ipfixListen?: string; netflowListen?: string;
-  statusJson?: string; statusInterval: string; idleAfter: string;
+  statusJson?: string; statusInterval: string; idleAfter: string; checkpointInterval: string;
 }
 
 const collect = (v: string, acc: string[]): string[] => [...acc, v];
@@ -34,6 +34,7 @@ export function register(program: Command): void {
     .option('--no-color', 'no colour in pretty output')
     .option('--state <file>', 'continue from and save to a state file (SQLite, mode 0600); written once per closed window')
     .option('--show-suppressed', 'with --state: also output lines suppressed by a benign label (evidence suppressed_by)')
+    .option('--checkpoint-interval <duration>', 'with --state: also write the learned state as a window closes this long after the last write (0: only at the stop)', '10m')
     .option('--status-json <file>', 'write the status as JSON to FILE at every status interval (written whole, then renamed into place)')
     .option('--status-interval <duration>', 'how often the status line and --status-json are written', '10s')
     .option('--idle-after <duration>', 'after this much wall-clock time without data, event time moves on with the wall clock', '2s');
@@ -47,6 +48,7 @@ export function register(program: Command): void {
     }
     const statusEveryMs = duration('--status-interval', raw.statusInterval, 100);
     const idleAfterMs = duration('--idle-after', raw.idleAfter, 0);
+    const checkpointEveryMs = duration('--checkpoint-interval', raw.checkpointInterval, 0);
     const parsed = parseSensorOptions(raw);
     // flow exports arrive up to their active timeout late; a capture only reorders within seconds
     const flowSources = collector !== undefined || raw.follow.length > 0;
@@ -54,7 +56,7 @@ export function register(program: Command): void {
     const output = new AlertOutput({ format: raw.format, out: raw.out, color: raw.color, syslog: raw.syslog, live: true });
     // the state store (SQLite, a native module) loads only when a state file is given
     const state = raw.state !== undefined
-      ? (await import('../store/session.js')).SensorState.open(raw.state, { showSuppressed: raw.showSuppressed })
+      ? (await import('../store/session.js')).SensorState.open(raw.state, { showSuppressed: raw.showSuppressed, checkpointEveryMs })
       : null;
     const emit = (a: Alert) => output.emit(a);
     const sensor = new Sensor({ ...parsed.sensor, mode: 'live', latenessMs }, state ? state.emitter(emit) : emit);

@@ -285,9 +285,18 @@ export class LiveRun {
       sources,
       syslog: syslogStatus(syslog),
       rules: { ...this.rules },
+      ...(this.o.state ? { state: stateStatus(this.o.state) } : {}),
       final,
     };
   }
+}
+
+function stateStatus(s: SensorState): NonNullable<LiveStatus['state']> {
+  const last = s.checkpoints.lastAt;
+  return {
+    path: s.path, lines_stored: s.written.lines, checkpoints: s.checkpoints.count,
+    last_checkpoint: Number.isNaN(last) ? null : rfc3339(last), failed: s.failed,
+  };
 }
 
 function addressText(x: AddressInfo): string {

@@ -45,6 +45,11 @@ export interface LiveStatus {
   };
   syslog: { target: string; sent: number; dropped: number; reconnects: number; errors: number }[];
   rules: { files: number; reloads: number; refused: number };
+  /**
+   * `--state`: alert lines stored, checkpoints of the learned state written by this run and the time
+   * of the last (null: none yet), and why writing stopped (null: it did not).
+   */
+  state?: { path: string; lines_stored: number; checkpoints: number; last_checkpoint: string | null; failed: string | null };
   /** true in the last report, written after the run closed its windows and flushed. */
   final: boolean;
 }

@@ -22,11 +22,12 @@ type AggregatorJson = Omit<AggregatorSnapshot, 'prevalence' | 'insideSeen' | 'hi
  * Writes everything the sensor learned and holds between windows: the aggregator (address ids, peer
  * history, prevalence, inside marks, recent new peers, next window), every host model and baseline
  * slot, the engine's run state and the tracker's open episodes. Call inside one transaction, between
- * windows (after Sensor.suspend()).
+ * windows: after Sensor.suspend(), or with `midRun` as a window closes while later ones are open (a
+ * live run's periodic checkpoint: what the open windows hold so far is not part of it).
  */
-export function saveCheckpoint(store: StateStore, sensor: Sensor): void {
+export function saveCheckpoint(store: StateStore, sensor: Sensor, midRun = false): void {
   const agg = sensor.aggregator;
-  const s = agg.snapshot();
+  const s = agg.snapshot(midRun);
   const { prevalence, insideSeen, history, ...rest } = s;
   const aggJson: AggregatorJson = { ...rest, forgotten: history.forgotten, hasOld: history.old !== null };
   store.putState('aggregator', toJson(aggJson));

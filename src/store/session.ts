@@ -11,6 +11,14 @@ import { StateError, StateStore } from './store.js';
 export interface SensorStateOptions {
   /** Lines suppressed by a benign label still go to the outputs (carrying `suppressed_by`). */
   showSuppressed?: boolean;
+  /**
+   * A live run's checkpoint interval (wall-clock ms): the learned state is also written as the first
+   * window closes after each interval, so a crash loses at most that much learning. 0 or absent: only
+   * at the end of the run.
+   */
+  checkpointEveryMs?: number;
+  /** Wall clock (tests). */
+  now?: () => number;
 }
 
 /**
@@ -27,6 +35,10 @@ export class SensorState {
   private pending: Filtered[] = [];
   /** Lines stored by this run (a rerun's repeats not counted), and how many of them were suppressed. */
   readonly written = { lines: 0, suppressed: 0 };
+  /** Checkpoints written by this run, and the wall-clock time of the last (NaN: none yet). */
+  readonly checkpoints = { count: 0, lastAt: Number.NaN };
+  private readonly now: () => number;
+  private nextCheckpointAt: number;
   /**
    * Why writing the state failed (disk full, file size limit, locked, I/O error), or null. After a
    * failure nothing more is written: alerts still reach the outputs, the file keeps its committed
@@ -37,6 +49,9 @@ export class SensorState {
   private constructor(store: StateStore, private readonly opts: SensorStateOptions, readonly path: string) {
     this.store = store;
     this.filter = new LabelFilter(store.labels());
+    this.now = opts.now ?? Date.now;
+    const every = opts.checkpointEveryMs ?? 0;
+    this.nextCheckpointAt = every > 0 ? this.now() + every : Number.POSITIVE_INFINITY;
   }
 
   /** Opens the state file; a file that cannot be used is a usage error (exit 2). */
@@ -61,7 +76,13 @@ export class SensorState {
     if (decisions) this.filter = new LabelFilter(this.store.labels(), fromJson<[string, LabelDecision][]>(decisions));
     const before = sensor.onWindowClosed;
     sensor.onWindowClosed = (w) => {
-      this.guarded(() => this.writeWindow(w));
+      // a due checkpoint goes in the window's own transaction: the file never holds one without the other
+      const checkpoint = this.now() >= this.nextCheckpointAt;
+      this.guarded(() => {
+        this.writeWindow(w);
+        if (checkpoint) this.writeCheckpoint(true);
+      });
+      if (checkpoint) this.nextCheckpointAt = this.now() + this.opts.checkpointEveryMs!;
       before?.(w);
     };
   }
@@ -73,9 +94,15 @@ export class SensorState {
     sensor.suspend();
     this.guarded(() => {
       this.flushAlerts();
-      saveCheckpoint(this.store, sensor);
-      this.store.putState('labels', toJson(this.filter.openDecisions()));
+      this.writeCheckpoint(false);
     });
+  }
+
+  private writeCheckpoint(midRun: boolean): void {
+    saveCheckpoint(this.store, this.sensor!, midRun);
+    this.store.putState('labels', toJson(this.filter.openDecisions()));
+    this.checkpoints.count++;
+    this.checkpoints.lastAt = this.now();
   }
 
   close(): void {
@@ -89,11 +116,13 @@ export class SensorState {
   /** One transaction; a failure rolls it back whole, is said once on stderr, and stops the writing. */
   private guarded(fn: () => void): void {
     if (this.failed) { this.pending = []; return; }
-    const before = { ...this.written };
+    // the figures count what was committed: a failed transaction takes its counts back with it
+    const before = { ...this.written }, checkpoints = { ...this.checkpoints };
     try {
       this.store.transaction(fn);
     } catch (e) {
       Object.assign(this.written, before);
+      Object.assign(this.checkpoints, checkpoints);
       this.pending = [];
       this.fail(e);
     }
@@ -104,14 +133,21 @@ export class SensorState {
     const err = e as { code?: string; message?: string };
     this.failed = `${err.code ?? 'error'}: ${String(err.message ?? e).split('\n')[0]}`;
     process.stderr.write(`tidewatch: --state ${this.path}: write failed (${this.failed}); alerts continue on the outputs; `
-      + `${this.written.lines} lines of this run were stored before it; the learned state stays the previous run's\n`);
+      + `${this.written.lines} lines of this run were stored before it; ${this.learnedStateIs()}\n`);
   }
 
   /** One line for the command's stderr summary. */
   summary(): string {
     return `state ${this.path}: ${this.restored ? 'continued' : 'new'}, ${this.written.lines} alert lines stored`
       + `${this.written.suppressed > 0 ? ` (${this.written.suppressed} suppressed by labels)` : ''}`
-      + `${this.failed ? `; WRITE FAILED (${this.failed}): checkpoint not written` : ''}`;
+      + `${this.failed ? `; WRITE FAILED (${this.failed}): checkpoint not written, ${this.learnedStateIs()}` : ''}`;
+  }
+
+  /** Which learned state the file holds after a write failure. */
+  private learnedStateIs(): string {
+    return Number.isNaN(this.checkpoints.lastAt)
+      ? "the learned state stays the previous run's"
+      : `the learned state is this run's checkpoint of ${new Date(this.checkpoints.lastAt).toISOString()}`;
   }
 
   private writeWindow(w: ClosedWindow): void {

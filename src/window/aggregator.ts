@@ -277,11 +277,13 @@ export class WindowAggregator {
   }
 
   /**
-   * Everything the aggregator learned, for the state store; only between windows (none open, as after
-   * finish()), since open windows' accumulators are not part of it.
+   * Everything the aggregator learned, for the state store: between windows (none open, as after
+   * finish()), since open windows' accumulators are not part of it. `withOpen` (a checkpoint taken in a
+   * live run as a window closes) takes it while later windows are open: a restore then continues from
+   * the next window to close, and what those windows had gathered is not in it.
    */
-  snapshot(): AggregatorSnapshot {
-    if (this.open.size > 0) throw new Error('aggregator snapshot with open windows');
+  snapshot(withOpen = false): AggregatorSnapshot {
+    if (this.open.size > 0 && !withOpen) throw new Error('aggregator snapshot with open windows');
     return {
       addresses: this.addresses.snapshot(), history: this.history.snapshot(),
       prevalence: this.prevalence.slice(), insideSeen: this.insideSeen.slice(), insideHosts: this.insideHosts,

@@ -1,0 +1,79 @@
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, describe, expect, it } from 'vitest';
+import { Sensor } from '../../src/sensor/sensor.js';
+import { SensorState } from '../../src/store/session.js';
+import { learnedState, readRecords, sensorOptions } from './helpers.js';
+
+// Periodic checkpoints of a live run (`watch --state --checkpoint-interval`): the learned state is
+// written as a window closes while later windows are still open, in that window's transaction, so a
+// process that dies without its stop keeps what it had learned up to the last checkpoint. What open
+// windows had gathered is not in a checkpoint (docs/operations.md, State). Behaviour is ours: common
+// practice, no source.
+const dir = mkdtempSync(join(tmpdir(), 'tidewatch-checkpoint-'));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+const DEMO = new URL('../../captures/larkspur-demo.pcap', import.meta.url).pathname;
+
+describe('live checkpoints', () => {
+  it('are written as windows close with later windows open, and a killed run restarts from the last one', async () => {
+    const records = await readRecords(DEMO);
+    const half = records.slice(0, Math.floor(records.length / 2));
+    const db = join(dir, 'live.db');
+    let wall = 0;
+    // a fake wall clock: one minute passes per closed window, the interval is five minutes
+    const state = SensorState.open(db, { checkpointEveryMs: 5 * 60_000, now: () => wall });
+    const sensor = new Sensor(sensorOptions({ mode: 'live' }), state.emitter(() => {}));
+    state.attach(sensor);
+    const hooked = sensor.onWindowClosed!;
+    let closed = 0;
+    let atLast: { models: number; addresses: number; nextWindow: number } | null = null;
+    sensor.onWindowClosed = (w) => {
+      wall += 60_000;
+      const before = state.checkpoints.count;
+      hooked(w);
+      closed++;
+      if (state.checkpoints.count > before) {
+        atLast = { models: sensor.engine.models.size, addresses: sensor.aggregator.addresses.size, nextWindow: w.end };
+      }
+    };
+    for (const r of half) sensor.record(r);
+    expect(closed).toBeGreaterThanOrEqual(10);
+    // every fifth window's close (the first once five minutes have passed)
+    expect(state.checkpoints.count).toBe(Math.floor(closed / 5));
+    expect(atLast).not.toBeNull();
+    // the "crash": the store is closed without the stop's suspend and checkpoint
+    state.close();
+
+    const again = SensorState.open(db);
+    const restored = new Sensor(sensorOptions({ mode: 'live' }), again.emitter(() => {}));
+    again.attach(restored);
+    expect(again.restored).toBe(true);
+    expect(restored.engine.models.size).toBe(atLast!.models);
+    expect(restored.aggregator.addresses.size).toBe(atLast!.addresses);
+    // it goes on from the window after the checkpoint's: the rest of the input closes windows again
+    const windowsBefore = restored.aggregator.stats.windowsClosed;
+    let firstClosed = Number.NaN;
+    const rehooked = restored.onWindowClosed!;
+    restored.onWindowClosed = (w) => { if (Number.isNaN(firstClosed)) firstClosed = w.start; rehooked(w); };
+    for (const r of records.slice(half.length)) restored.record(r);
+    again.suspend();
+    again.close();
+    expect(firstClosed).toBe(atLast!.nextWindow);
+    expect(restored.aggregator.stats.windowsClosed).toBeGreaterThan(windowsBefore);
+    expect(learnedState(db).hosts).not.toHaveLength(0);
+  });
+
+  it('without an interval writes the learned state only at the stop', async () => {
+    const records = await readRecords(DEMO);
+    const db = join(dir, 'stop-only.db');
+    const state = SensorState.open(db);
+    const sensor = new Sensor(sensorOptions({ mode: 'live' }), state.emitter(() => {}));
+    state.attach(sensor);
+    for (const r of records) sensor.record(r);
+    expect(state.checkpoints.count).toBe(0);
+    state.suspend();
+    expect(state.checkpoints.count).toBe(1);
+    state.close();
+  });
+});
