@@ -218,24 +218,36 @@ export class BaselineBank {
 
   /** One slot's state as bytes (little-endian; for the state store). */
   slotToBytes(slot: number): Uint8Array {
-    const id = slot < this.capacity ? this.profileOf[slot]! : -1;
-    const profile = id >= 0 ? this.profiles[id]!.toBytes() : null;
-    const b = new Uint8Array(SLOT_HEADER + (profile?.length ?? 0));
-    const dv = new DataView(b.buffer);
-    b[0] = SLOT_VERSION;
-    b[1] = profile ? 1 : 0;
-    if (slot < this.capacity) {
-      dv.setFloat32(4, this.level[slot]!, true);
-      dv.setFloat32(8, this.dev[slot]!, true);
-      dv.setUint32(12, this.history[slot]!, true);
-      dv.setUint32(16, this.missing[slot]!, true);
-      dv.setUint32(20, this.active[slot]!, true);
-      dv.setFloat64(24, this.last[slot]!, true);
-    } else {
-      dv.setFloat64(24, NaN, true);
-    }
-    if (profile) b.set(profile, SLOT_HEADER);
+    const b = new Uint8Array(this.slotByteLength(slot));
+    this.writeSlot(slot, new DataView(b.buffer, b.byteOffset, b.byteLength), b, 0);
     return b;
+  }
+
+  /** Length of slotToBytes(slot). */
+  slotByteLength(slot: number): number {
+    const id = slot < this.capacity ? this.profileOf[slot]! : -1;
+    return SLOT_HEADER + (id >= 0 ? SeasonalProfile.BYTES : 0);
+  }
+
+  /**
+   * Writes slotToBytes(slot) at `off` of zeroed bytes `b` (`dv` views b, from its first byte), so a
+   * checkpoint encodes a host's slots into one buffer instead of one per slot.
+   */
+  writeSlot(slot: number, dv: DataView, b: Uint8Array, off: number): void {
+    const id = slot < this.capacity ? this.profileOf[slot]! : -1;
+    b[off] = SLOT_VERSION;
+    b[off + 1] = id >= 0 ? 1 : 0;
+    if (slot < this.capacity) {
+      dv.setFloat32(off + 4, this.level[slot]!, true);
+      dv.setFloat32(off + 8, this.dev[slot]!, true);
+      dv.setUint32(off + 12, this.history[slot]!, true);
+      dv.setUint32(off + 16, this.missing[slot]!, true);
+      dv.setUint32(off + 20, this.active[slot]!, true);
+      dv.setFloat64(off + 24, this.last[slot]!, true);
+    } else {
+      dv.setFloat64(off + 24, NaN, true);
+    }
+    if (id >= 0) this.profiles[id]!.writeTo(dv, b, off + SLOT_HEADER);
   }
 
   /** Restores a slot from slotToBytes output; false (slot untouched) when the bytes do not fit. */

@@ -155,14 +155,21 @@ export class SeasonalProfile {
     return this.slots.byteLength + 160;
   }
 
+  /** Length of toBytes() output. */
+  static readonly BYTES = HEADER + 8 * VISIT_FIELDS + 4 * FLOATS;
+
   toBytes(): Uint8Array {
-    const b = new Uint8Array(HEADER + 8 * VISIT_FIELDS + 4 * FLOATS);
-    const dv = new DataView(b.buffer);
-    b[0] = FORMAT_VERSION;
-    const visit = [this.visitHour, this.count, this.dSum, this.dSq, this.wSum, this.wSq, this.dLo, this.dHi, this.wLo, this.wHi];
-    visit.forEach((v, i) => dv.setFloat64(HEADER + 8 * i, v, true));
-    for (let i = 0; i < FLOATS; i++) dv.setFloat32(HEADER + 8 * VISIT_FIELDS + 4 * i, this.slots[i]!, true);
+    const b = new Uint8Array(SeasonalProfile.BYTES);
+    this.writeTo(new DataView(b.buffer, b.byteOffset, b.byteLength), b, 0);
     return b;
+  }
+
+  /** Writes toBytes() output at `off` of zeroed bytes `b` (`dv` views b, from its first byte). */
+  writeTo(dv: DataView, b: Uint8Array, off: number): void {
+    b[off] = FORMAT_VERSION;
+    const visit = [this.visitHour, this.count, this.dSum, this.dSq, this.wSum, this.wSq, this.dLo, this.dHi, this.wLo, this.wHi];
+    for (let i = 0; i < VISIT_FIELDS; i++) dv.setFloat64(off + HEADER + 8 * i, visit[i]!, true);
+    for (let i = 0; i < FLOATS; i++) dv.setFloat32(off + HEADER + 8 * VISIT_FIELDS + 4 * i, this.slots[i]!, true);
   }
 
   /** Inverse of toBytes; null when the bytes are not a profile of this format version. */

@@ -46,5 +46,15 @@ describe('codec', () => {
     expect(slotsFromBytes(b.plain, 3, slotsToBytes(a.plain, 3))).toBe(true);
     for (const f of [0, 2, 14]) expect(b.band(3, f, 100 * 60_000, 3.1)).toEqual(a.band(3, f, 100 * 60_000, 3.1));
     expect(slotsFromBytes(b.counts, 3, slotsToBytes(a.counts, 3).subarray(2))).toBe(false);
+    // the one-buffer encoding is the per-slot one laid end to end: a 4-octet length, then the slot
+    for (const bank of [a.counts, a.plain]) {
+      const parts = Array.from({ length: bank.features }, (_, f) => {
+        const s = bank.slotToBytes(bank.slotOf(3, f));
+        const len = Buffer.alloc(4);
+        len.writeUInt32LE(s.length);
+        return Buffer.concat([len, s]);
+      });
+      expect(slotsToBytes(bank, 3).equals(Buffer.concat(parts))).toBe(true);
+    }
   });
 });

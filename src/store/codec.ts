@@ -98,15 +98,29 @@ export function modelFromBytes(hostId: number, baselines: Baselines, bytes: Uint
 }
 
 /** One host's slots of a bank, each as u32 length + BaselineBank.slotToBytes. */
-export function slotsToBytes(bank: { features: number; slotOf(h: number, f: number): number; slotToBytes(s: number): Uint8Array }, host: number): Buffer {
-  const parts: Buffer[] = [];
+export function slotsToBytes(bank: SlotWriter, host: number): Buffer {
+  let total = 0;
+  for (let f = 0; f < bank.features; f++) total += 4 + bank.slotByteLength(bank.slotOf(host, f));
+  // one zeroed buffer per host: a checkpoint of many hosts allocates per host, not per slot
+  const b = Buffer.alloc(total);
+  const dv = new DataView(b.buffer, b.byteOffset, b.byteLength);
+  let o = 0;
   for (let f = 0; f < bank.features; f++) {
-    const s = bank.slotToBytes(bank.slotOf(host, f));
-    const len = Buffer.alloc(4);
-    len.writeUInt32LE(s.length);
-    parts.push(len, Buffer.from(s.buffer, s.byteOffset, s.byteLength));
+    const slot = bank.slotOf(host, f);
+    const len = bank.slotByteLength(slot);
+    dv.setUint32(o, len, true);
+    bank.writeSlot(slot, dv, b, o + 4);
+    o += 4 + len;
   }
-  return Buffer.concat(parts);
+  return b;
+}
+
+/** What slotsToBytes needs of a baseline bank. */
+interface SlotWriter {
+  features: number;
+  slotOf(h: number, f: number): number;
+  slotByteLength(slot: number): number;
+  writeSlot(slot: number, dv: DataView, b: Uint8Array, off: number): void;
 }
 
 /** Inverse of slotsToBytes; false when any slot does not fit (the bank keeps what was restored). */
