@@ -4,10 +4,11 @@
  * column: capture path >= 3.5 M packets/s, >= 5x the pcap-parser packet loop, peak RSS <= 300 MB;
  * replay >= 2 M/s, >= 3x, <= 600 MB; 1 M hosts <= 1.5 GB; IPFIX decode >= 2 M/s, <= 300 MB; watch >= 200 k/s.
  * Options: --packets N (default 3 M), --repeat N (run each bench N times, report the fastest; default 1),
- * --keep (leave the capture in the temp folder).
+ * --long-packets N (the long capture's packets, default 12 M; 0 leaves its rows out), --keep (leave the
+ * captures in the temp folder).
  */
 import { spawnSync } from 'node:child_process';
-import { closeSync, existsSync, mkdtempSync, openSync, rmSync, statSync } from 'node:fs';
+import { closeSync, existsSync, mkdtempSync, openSync, rmSync, statfsSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -19,14 +20,18 @@ const packetsArg = args.indexOf('--packets');
 const packets = packetsArg >= 0 ? Number(args[packetsArg + 1]) : DEFAULT_GEN.packets;
 const repeatArg = args.indexOf('--repeat');
 const repeat = repeatArg >= 0 ? Math.max(1, Number(args[repeatArg + 1])) : 1;
+const longArg = args.indexOf('--long-packets');
+const longPackets = longArg >= 0 ? Math.max(0, Number(args[longArg + 1])) : 4 * DEFAULT_GEN.packets;
 
 /** One bench's figures: `packets` counts the units it handled (packets, or records for flow exports). */
 export interface Measure { packets: number; ms: number; cpuMs: number; maxRssKB: number; flows?: number }
 /**
- * A bench: `input: 'capture'` runs on the generated capture (and is compared with pcap-parser);
+ * A bench: `input: 'capture'` runs on the generated capture (and is compared with pcap-parser on it),
+ * `'long'` on the long capture (the same generator, four times the packets: a replay's fixed costs,
+ * V8 compiling the hot code above all, spread over more packets; compared with pcap-parser on it);
  * `'own'` benches make their own input and ignore the file argument.
  */
-export interface Bench { name: string; input: 'capture' | 'own'; run(file: string): Measure | Promise<Measure>; target?: Target }
+export interface Bench { name: string; input: 'capture' | 'long' | 'own'; run(file: string): Measure | Promise<Measure>; target?: Target }
 
 /** A row's targets (the issues'): units per wall second, times pcap-parser's rate, peak RSS in MB. */
 export interface Target { perSecond?: number; vsPcapParser?: number; maxRssMB?: number }
@@ -88,6 +93,8 @@ export const benches: Bench[] = [
   { name: '  its reading thread alone: capture -> flow records, counted', input: 'capture', run: (f) => child('records', f) },
   { name: '  its main thread alone: records held in memory -> windows, detectors', input: 'capture', run: (f) => child('windows', f) },
   { name: 'replay --no-read-thread (one thread)', input: 'capture', run: (f) => child('replay-main', f) },
+  { name: 'long capture: pcap-parser packet loop', input: 'long', run: (f) => child('pcap-parser', f) },
+  { name: 'long capture: replay (reading thread + detectors)', input: 'long', run: (f) => child('replay', f) },
   { name: 'replay host scaling: 1 M distinct hosts x 3 windows (records)', input: 'own', run: () => child('hosts', '1000000'), target: { maxRssMB: 1500 } },
   { name: 'IPFIX file decode, 2.1 M records (records)', input: 'own', run: () => ipfixChild(), target: { perSecond: 2e6, maxRssMB: 300 } },
   // one second at the highest loss-free rate; CPU = the receiving watch process's
@@ -98,6 +105,17 @@ export const benches: Bench[] = [
   }, target: { perSecond: 2e5 } },
 ];
 const BASELINE = 'pcap-parser packet loop (npm, count only)';
+const LONG_BASELINE = 'long capture: pcap-parser packet loop';
+
+/** Disk the long capture needs (octets per packet as the generator writes them, with room to spare). */
+function longFits(dir: string, packets: number, bytesPerPacket: number): boolean {
+  try {
+    const fs = statfsSync(dir);
+    return fs.bavail * fs.bsize > packets * bytesPerPacket * 1.5;
+  } catch {
+    return false;
+  }
+}
 
 const dir = mkdtempSync(join(tmpdir(), 'tidewatch-bench-'));
 const file = join(dir, 'bench.pcap');
@@ -106,31 +124,53 @@ try {
   const gen = generateCapture(file, { ...DEFAULT_GEN, packets });
   const size = statSync(file).size;
   process.stdout.write(`capture: ${gen.packets} packets, ${gen.flows} generated flows, ${(size / 1e6).toFixed(1)} MB, written in ${((Date.now() - t) / 1000).toFixed(1)} s (${file})\n\n`);
+  const longFile = join(dir, 'bench-long.pcap');
+  let long = longPackets > 0;
+  if (long && !longFits(dir, longPackets, size / gen.packets)) {
+    process.stdout.write(`long capture: left out (not enough free space in ${dir} for ${longPackets} packets)\n\n`);
+    long = false;
+  }
+  if (long) {
+    const t2 = Date.now();
+    const g = generateCapture(longFile, { ...DEFAULT_GEN, packets: longPackets });
+    process.stdout.write(`long capture: ${g.packets} packets, ${g.flows} generated flows, ${(statSync(longFile).size / 1e6).toFixed(1)} MB, written in ${((Date.now() - t2) / 1000).toFixed(1)} s\n\n`);
+  }
   const rows: [string, Measure][] = [];
   const inputOf = new Map<string, Bench['input']>();
   const targetOf = new Map<string, Target | undefined>();
   for (const b of benches) {
+    if (b.input === 'long' && !long) continue;
+    const f = b.input === 'long' ? longFile : file;
     inputOf.set(b.name, b.input);
     targetOf.set(b.name, b.target);
-    let best = await b.run(file);
+    let best = await b.run(f);
     for (let i = 1; i < repeat; i++) {
-      const m = await b.run(file);
+      const m = await b.run(f);
       if (m.ms < best.ms) best = m;
     }
     rows.push([b.name, best]);
   }
-  const base = rows.find(([n]) => n === BASELINE)?.[1];
+  if (long) rmSync(longFile, { force: true });
+  const baseOf = (name: string): Measure | undefined => {
+    const input = inputOf.get(name);
+    const n = input === 'capture' ? BASELINE : input === 'long' ? LONG_BASELINE : null;
+    return n === null ? undefined : rows.find(([x]) => x === n)?.[1];
+  };
   const pps = (m: Measure) => m.packets / (m.ms / 1000);
   const cpuPps = (m: Measure) => m.packets / (m.cpuMs / 1000);
   const head = ['bench', 'packets', 'seconds', 'M packets/s', 'MB/s', 'M packets/CPU s', 'flow records', 'peak RSS MB', 'vs pcap-parser', 'CPU vs pcap-parser', 'targets'];
-  const table = rows.map(([name, m]) => [
-    name, String(m.packets), (m.ms / 1000).toFixed(2), (pps(m) / 1e6).toFixed(2),
-    inputOf.get(name) === 'capture' ? (size / 1e6 / (m.ms / 1000)).toFixed(0) : '-',
-    (cpuPps(m) / 1e6).toFixed(2), m.flows === undefined ? '-' : String(m.flows), (m.maxRssKB / 1024).toFixed(0),
-    base && inputOf.get(name) === 'capture' ? `${(pps(m) / pps(base)).toFixed(1)}x` : '-',
-    base && inputOf.get(name) === 'capture' ? `${(cpuPps(m) / cpuPps(base)).toFixed(1)}x` : '-',
-    verdict(targetOf.get(name), pps(m), base && inputOf.get(name) === 'capture' ? pps(m) / pps(base) : undefined, m.maxRssKB / 1024),
-  ]);
+  const table = rows.map(([name, m]) => {
+    const base = baseOf(name);
+    const input = inputOf.get(name);
+    return [
+      name, String(m.packets), (m.ms / 1000).toFixed(2), (pps(m) / 1e6).toFixed(2),
+      input === 'capture' ? (size / 1e6 / (m.ms / 1000)).toFixed(0) : input === 'long' ? ((size / gen.packets) * m.packets / 1e6 / (m.ms / 1000)).toFixed(0) : '-',
+      (cpuPps(m) / 1e6).toFixed(2), m.flows === undefined ? '-' : String(m.flows), (m.maxRssKB / 1024).toFixed(0),
+      base ? `${(pps(m) / pps(base)).toFixed(1)}x` : '-',
+      base ? `${(cpuPps(m) / cpuPps(base)).toFixed(1)}x` : '-',
+      verdict(targetOf.get(name), pps(m), base ? pps(m) / pps(base) : undefined, m.maxRssKB / 1024),
+    ];
+  });
   const widths = head.map((h, i) => Math.max(h.length, ...table.map((r) => r[i]!.length)));
   const line = (r: string[]) => r.map((c, i) => (i === 0 ? c.padEnd(widths[i]!) : c.padStart(widths[i]!))).join('  ');
   process.stdout.write(`${line(head)}\n${widths.map((w) => '-'.repeat(w)).join('  ')}\n${table.map(line).join('\n')}\n`);
@@ -141,6 +181,7 @@ try {
     + 'vs pcap-parser compares packets per wall second, CPU vs pcap-parser packets per CPU second (both children read the same file);\n'
     + 'the plain loop is the least work that counts bidirectional flows (DESIGN.md section 9: about 5.4 M packets/s), a ceiling for the capture rows;\n'
     + "replay's two threads share the machine's cores with each other and with V8's compiler and collector threads: replay runs at best at the rate of the slower of its two rows alone;\n"
+    + 'the long capture rows (same generator, more packets) compare with pcap-parser on the long capture: fixed costs of a run (V8 compiling the hot code) weigh less there;\n'
     + `the machine is shared, so compare rows of one run rather than runs${repeat > 1 ? ` (fastest of ${repeat} runs each)` : ''}.\n`);
 } finally {
   if (!args.includes('--keep')) rmSync(dir, { recursive: true, force: true });
