@@ -18,7 +18,7 @@ export function register(program: Command): void {
   const cmd = program
     .command('replay')
     .description('replay captures or flow exports at full speed and write the alert feed (JSON lines)')
-    .argument('<input...>', 'pcap, pcapng, IPFIX, NetFlow v9, CSV or JSON-lines flow log (gzip ok); - for stdin')
+    .argument('<input...>', 'pcap, pcapng, IPFIX, NetFlow v9 or v5, CSV, JSON-lines or VPC flow log (gzip ok); - for stdin')
     .option('--out <file>', 'also append alerts (JSON lines) to FILE')
     .option('--format <fmt>', 'jsonl or pretty (default: pretty on a terminal, jsonl otherwise)')
     .option('--no-color', 'no colour in pretty output')

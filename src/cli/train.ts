@@ -20,7 +20,7 @@ export function register(program: Command): void {
   const cmd = program
     .command('train')
     .description('learn baselines and peer history from captures or flow exports into a state file, without alerting')
-    .argument('<input...>', 'pcap, pcapng, IPFIX, NetFlow v9, CSV or JSON-lines flow log (gzip ok); - for stdin')
+    .argument('<input...>', 'pcap, pcapng, IPFIX, NetFlow v9 or v5, CSV, JSON-lines or VPC flow log (gzip ok); - for stdin')
     .requiredOption('--state <file>', 'state file (SQLite; created with mode 0600)');
   addReadThreadOption(addSensorOptions(cmd)).action(async (inputs: string[], raw: TrainRaw) => {
     const parsed = parseSensorOptions(raw);

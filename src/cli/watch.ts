@@ -27,7 +27,7 @@ export function register(program: Command): void {
     .argument('[stdin]', '- to read a pcap or pcapng stream on stdin (e.g. from a capture tool writing to a pipe)')
     .option('--ipfix-listen <HOST:PORT>', 'collect IPFIX over UDP and TCP on HOST:PORT (a bare PORT binds 127.0.0.1; port 0 picks one)')
     .option('--netflow-listen <HOST:PORT>', 'collect NetFlow v9 and v5 over UDP on HOST:PORT (a bare PORT binds 127.0.0.1)')
-    .option('--follow <file>', 'follow a growing CSV or JSON-lines flow log from its start, through rotation and truncation (repeatable)', collect, [])
+    .option('--follow <file>', 'follow a growing CSV, JSON-lines or VPC flow log from its start, through rotation and truncation (repeatable)', collect, [])
     .option('--out <file>', 'also append alerts (JSON lines) to FILE, rotated by size, synced once per closed window')
     .option('--syslog <url>', 'also send alerts as RFC 5424 syslog to udp://HOST:PORT or tcp://HOST:PORT (repeatable)', collect, [])
     .option('--format <fmt>', 'stdout: jsonl or pretty (default: pretty on a terminal, jsonl otherwise)')

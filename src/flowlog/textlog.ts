@@ -16,7 +16,7 @@ const NL = 0x0a, QUOTE = 0x22;
  * and then reported with its first line number and line count; while skipping, any newline ends it
  * (so an unbalanced quote cannot swallow the rest of the input).
  */
-class RecordSplitter {
+export class RecordSplitter {
   private carry = Buffer.alloc(0);
   private carryLen = 0;
   private inQuote = false;
@@ -95,8 +95,8 @@ class RecordSplitter {
   }
 }
 
-/** Shared bookkeeping of the two text readers. */
-class TextIngest {
+/** Shared bookkeeping of the text readers. */
+export class TextIngest {
   readonly problems = new ProblemCounter();
   readonly exporter: string;
   records = 0; flows = 0; bytes = 0; firstMs = NaN; lastMs = NaN;
@@ -109,9 +109,9 @@ class TextIngest {
     this.opts.onProblem?.({ file: this.file, offset: -1, line, reason, message, fatal: false });
   }
 
-  row(row: Record<string, unknown>, line: number): void {
+  row(row: Record<string, unknown>, line: number, exporter = this.exporter): void {
     this.records++;
-    const r = rowToFlow(row, this.exporter);
+    const r = rowToFlow(row, exporter);
     if (typeof r === 'string') { this.bad(line, 'bad-line', r); return; }
     this.emit(r);
   }
@@ -124,16 +124,16 @@ class TextIngest {
     this.sink(r);
   }
 
-  summary(format: InputFormat): IngestSummary {
+  summary(format: InputFormat, counters: Record<string, number> = {}): IngestSummary {
     return {
       file: this.file, format, packets: this.records, records: this.records, bytes: this.bytes, flows: this.flows,
       firstMs: this.firstMs, lastMs: this.lastMs, problemCounts: this.problems.toObject(), truncated: false,
-      counters: { lines: this.records, flows: this.flows },
+      counters: { lines: this.records, flows: this.flows, ...counters },
     };
   }
 }
 
-const tooLongMessage = `line longer than ${MAX_LINE_BYTES} bytes skipped`;
+export const tooLongMessage = `line longer than ${MAX_LINE_BYTES} bytes skipped`;
 
 /**
  * JSON Lines flow log: one object per line, keys FlowRecord names or IPFIX IE names. A blank line is

@@ -10,5 +10,6 @@ export const loaders: ReadonlyMap<InputFormat, () => Promise<Ingestor>> = new Ma
   ['netflow5', () => import('../flowlog/file-ingest.js').then((m) => m.ingestNetflowV5)],
   ['csv', () => import('../flowlog/textlog.js').then((m) => m.ingestCsv)],
   ['jsonl', () => import('../flowlog/textlog.js').then((m) => m.ingestJsonl)],
+  ['vpc-flowlog', () => import('../flowlog/vpclog.js').then((m) => m.ingestVpcFlowLog)],
   ['export-capture', () => import('../flowlog/capture-ingest.js').then((m) => m.ingestExportCapture)],
 ]);

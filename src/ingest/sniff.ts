@@ -3,7 +3,8 @@ import type { InputFormat } from './types.js';
 /**
  * Recognises an input's format from its first bytes (after gunzip). Magic numbers: METHODS.md 1.1, 1.2
  * (pcap, pcapng), 3.9 (IPFIX version 10), 3.8 (NetFlow v9 version 9), NetFlow v5 (version 5, count
- * 1..30); text formats by their first non-blank character. Returns null when nothing matches.
+ * 1..30); VPC flow logs by their first line (a header of field names, or a default-layout record);
+ * other text formats by their first non-blank character. Returns null when nothing matches.
  */
 export function sniffFormat(h: Uint8Array): InputFormat | null {
   if (h.length >= 4) {
@@ -26,10 +27,39 @@ export function sniffFormat(h: Uint8Array): InputFormat | null {
   while (i < h.length && (h[i] === 0x20 || h[i] === 0x09 || h[i] === 0x0d || h[i] === 0x0a)) i++;
   if (i < h.length) {
     const c = h[i]!;
+    let nl = i;
+    while (nl < h.length && h[nl] !== 0x0a) nl++;
+    const first = Buffer.from(h.buffer, h.byteOffset + i, nl - i).toString('latin1');
+    if (isVpcHeader(first) || isVpcDefaultRecord(first)) return 'vpc-flowlog';
     if (c === 0x7b) return 'jsonl'; // '{'
     if ((c >= 0x41 && c <= 0x5a) || (c >= 0x61 && c <= 0x7a) || c === 0x22 || c === 0x5f) return 'csv';
   }
   return null;
+}
+
+/**
+ * Cloud VPC flow logs: one record per line, fields separated by spaces, `-` for a field with no value
+ * (AWS VPC User Guide, "Flow log records"; other clouds' VPC flow logs use the same field names). A
+ * first line of field names gives the layout (as delivered to object storage, custom formats
+ * included); without one the default version 2 layout is assumed.
+ */
+export const DEFAULT_VPC_FIELDS: readonly string[] = [
+  'version', 'account-id', 'interface-id', 'srcaddr', 'dstaddr', 'srcport', 'dstport', 'protocol',
+  'packets', 'bytes', 'start', 'end', 'action', 'log-status',
+];
+
+/** A line naming VPC flow-log fields: no commas, srcaddr and dstaddr among its words. */
+export function isVpcHeader(line: string): boolean {
+  if (line.includes(',')) return false;
+  const words = line.trim().split(/\s+/);
+  return words.includes('srcaddr') && words.includes('dstaddr');
+}
+
+/** A default-layout (version 2) record: 14 fields, a number first, an action and a log status last. */
+export function isVpcDefaultRecord(line: string): boolean {
+  const w = line.trim().split(/\s+/);
+  return w.length === DEFAULT_VPC_FIELDS.length && /^\d+$/.test(w[0]!)
+    && ['ACCEPT', 'REJECT', '-'].includes(w[12]!) && ['OK', 'NODATA', 'SKIPDATA'].includes(w[13]!);
 }
 
 /** Compressed and archive formats by their magic numbers (each format's own specification; from memory). */

@@ -3,8 +3,8 @@ import type { InputProblem } from '../util/problem.js';
 import type { ByteSource } from './source.js';
 
 /** `export-capture`: a capture of IPFIX / NetFlow export datagrams, taken when its first packets are mostly those (ingest/export-sniff.ts) or when asked for. */
-export type InputFormat = 'pcap' | 'pcapng' | 'ipfix' | 'netflow9' | 'netflow5' | 'csv' | 'jsonl' | 'export-capture';
-export const INPUT_FORMATS: readonly InputFormat[] = ['pcap', 'pcapng', 'ipfix', 'netflow9', 'netflow5', 'csv', 'jsonl', 'export-capture'];
+export type InputFormat = 'pcap' | 'pcapng' | 'ipfix' | 'netflow9' | 'netflow5' | 'csv' | 'jsonl' | 'vpc-flowlog' | 'export-capture';
+export const INPUT_FORMATS: readonly InputFormat[] = ['pcap', 'pcapng', 'ipfix', 'netflow9', 'netflow5', 'csv', 'jsonl', 'vpc-flowlog', 'export-capture'];
 
 export interface IngestOptions {
   /** Flow updates are cut at multiples of this (ms); 0 = no cuts. Default 60 000. */

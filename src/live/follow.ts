@@ -4,6 +4,7 @@ import type { ByteSource } from '../ingest/source.js';
 import { sniffFormat } from '../ingest/sniff.js';
 import { DEFAULT_INGEST, type IngestOptions } from '../ingest/types.js';
 import { ingestCsv, ingestJsonl } from '../flowlog/textlog.js';
+import { ingestVpcFlowLog } from '../flowlog/vpclog.js';
 import type { InputProblem } from '../util/problem.js';
 
 /** How often a followed file is looked at when it has not grown (ours, no source). */
@@ -97,7 +98,7 @@ function withHead(src: ByteSource, head: Uint8Array): ByteSource {
 }
 
 /**
- * `--follow FILE`: reads a CSV or JSON-lines flow log from its start and then as it grows, surviving
+ * `--follow FILE`: reads a CSV, JSON-lines or VPC flow log from its start and then as it grows, surviving
  * rotation (the file renamed away and a new one created: the old one is finished first) and
  * truncation (read again from the start). Each generation is read by the file ingest of its format
  * (flowlog/textlog.ts), so a rotated CSV file's new header is a header again. Runs until stop().
@@ -124,11 +125,12 @@ export class FileFollower {
       const head = await src.read();
       if (head) {
         const format = sniffFormat(head);
-        if (format === 'jsonl' || format === 'csv') {
+        if (format === 'jsonl' || format === 'csv' || format === 'vpc-flowlog') {
           const copy = Uint8Array.from(head);
-          await (format === 'jsonl' ? ingestJsonl : ingestCsv)(withHead(src, copy), count, ingest);
+          const read = format === 'jsonl' ? ingestJsonl : format === 'csv' ? ingestCsv : ingestVpcFlowLog;
+          await read(withHead(src, copy), count, ingest);
         } else {
-          onProblem({ file: this.path, offset: 0, reason: 'not-a-flow-log', message: '--follow reads CSV or JSON-lines flow logs only; waiting for the file to be replaced', fatal: false });
+          onProblem({ file: this.path, offset: 0, reason: 'not-a-flow-log', message: '--follow reads CSV, JSON-lines and VPC flow logs only; waiting for the file to be replaced', fatal: false });
           // drain this generation without reading records, until it is replaced, cut or stopped
           while (await src.read() !== null);
         }
