@@ -72,6 +72,8 @@ export class DetectorEngine {
    * and bands through it). Must not keep `ctx.values` or `ctx.acc` beyond the call.
    */
   observer: ((ctx: HostContext, findings: readonly Finding[]) => void) | null = null;
+  /** Called with each host whose model is evicted (idle), after it went (the state store's changed hosts). */
+  onEvict: ((hostId: number) => void) | null = null;
 
   constructor(private agg: WindowAggregator, private opts: EngineOptions) {
     this.thresholds = thresholdsFor(opts.alpha);
@@ -173,6 +175,7 @@ export class DetectorEngine {
       if (idle > this.idleEvictMs || (m.activeWindows < 12 && idle > 86_400_000)) {
         this.models.delete(id);
         this.stats.modelsEvicted++;
+        this.onEvict?.(id);
       }
     }
   }

@@ -23,9 +23,11 @@ type AggregatorJson = Omit<AggregatorSnapshot, 'prevalence' | 'insideSeen' | 'hi
  * history, prevalence, inside marks, recent new peers, next window), every host model and baseline
  * slot, the engine's run state and the tracker's open episodes. Call inside one transaction, between
  * windows: after Sensor.suspend(), or with `midRun` as a window closes while later ones are open (a
- * live run's periodic checkpoint: what the open windows hold so far is not part of it).
+ * live run's periodic checkpoint: what the open windows hold so far is not part of it). With `changed`
+ * (the address ids whose model or baselines may have changed since the file's last checkpoint) only
+ * those hosts' rows are written; everything else is written whole either way.
  */
-export function saveCheckpoint(store: StateStore, sensor: Sensor, midRun = false): void {
+export function saveCheckpoint(store: StateStore, sensor: Sensor, midRun = false, changed?: Iterable<number>): void {
   const agg = sensor.aggregator;
   const s = agg.snapshot(midRun);
   const { prevalence, insideSeen, history, ...rest } = s;
@@ -39,23 +41,39 @@ export function saveCheckpoint(store: StateStore, sensor: Sensor, midRun = false
   store.putState('tracker', toJson(sensor.tracker.snapshot()));
 
   const name = (id: number) => agg.addresses.name(id);
-  const models = [...sensor.engine.models].map(([id, m]) => ({
-    address: name(id), inside: agg.isInsideId(id), lastSeen: m.lastActiveStart, model: modelToBytes(m),
-  }));
-  store.putModels(models);
-
   const { counts, plain } = sensor.engine.baselines;
-  const rows: { address: string; bank: string; slots: Buffer }[] = [];
-  for (let id = 0; id < agg.addresses.capacity; id++) {
-    const address = name(id);
-    if (agg.addresses.peek(address) !== id) continue; // a released id
-    for (const [bankName, bank] of [['counts', counts], ['plain', plain]] as const) {
-      let used = false;
-      for (let f = 0; f < bank.features && !used; f++) used = bank.isUsed(bank.slotOf(id, f));
-      if (used) rows.push({ address, bank: bankName, slots: slotsToBytes(bank, id) });
+  const banks = [['counts', counts], ['plain', plain]] as const;
+  /** A host's slots of a bank as stored, or null when none of them has learned anything. */
+  const slotsOf = (bank: typeof counts, id: number): Buffer | null => {
+    let used = false;
+    for (let f = 0; f < bank.features && !used; f++) used = bank.isUsed(bank.slotOf(id, f));
+    return used ? slotsToBytes(bank, id) : null;
+  };
+  if (changed) {
+    // the rows of hosts not in `changed` are as the last checkpoint wrote them
+    for (const id of changed) {
+      const address = name(id);
+      if (address === undefined || agg.addresses.peek(address) !== id) continue;
+      const m = sensor.engine.models.get(id);
+      store.putModel(address, agg.isInsideId(id), m?.lastActiveStart ?? 0, m ? modelToBytes(m) : null);
+      for (const [bankName, bank] of banks) store.putBaseline(address, bankName, slotsOf(bank, id));
     }
+  } else {
+    const models = [...sensor.engine.models].map(([id, m]) => ({
+      address: name(id), inside: agg.isInsideId(id), lastSeen: m.lastActiveStart, model: modelToBytes(m),
+    }));
+    store.putModels(models);
+    const rows: { address: string; bank: string; slots: Buffer }[] = [];
+    for (let id = 0; id < agg.addresses.capacity; id++) {
+      const address = name(id);
+      if (agg.addresses.peek(address) !== id) continue; // a released id
+      for (const [bankName, bank] of banks) {
+        const slots = slotsOf(bank, id);
+        if (slots) rows.push({ address, bank: bankName, slots });
+      }
+    }
+    store.putBaselines(rows);
   }
-  store.putBaselines(rows);
 
   const meta: CheckpointMeta = {
     format: CHECKPOINT_FORMAT, windowMs: sensor.opts.windowMs, internal: [...sensor.opts.internal],

@@ -17,6 +17,11 @@ export interface SensorStateOptions {
    * at the end of the run.
    */
   checkpointEveryMs?: number;
+  /**
+   * Periodic checkpoints write only the hosts active (or evicted) since the last one, not every host
+   * (default true; false writes every host each time, as the end-of-run checkpoint does).
+   */
+  incrementalCheckpoints?: boolean;
   /** Wall clock (tests). */
   now?: () => number;
 }
@@ -39,6 +44,8 @@ export class SensorState {
   readonly checkpoints = { count: 0, lastAt: Number.NaN };
   private readonly now: () => number;
   private nextCheckpointAt: number;
+  /** Address ids whose model or baselines changed since the last checkpoint (periodic checkpoints only). */
+  private readonly changed = new Set<number>();
   /**
    * Why writing the state failed (disk full, file size limit, locked, I/O error), or null. After a
    * failure nothing more is written: alerts still reach the outputs, the file keeps its committed
@@ -75,7 +82,10 @@ export class SensorState {
     const decisions = this.store.getState('labels');
     if (decisions) this.filter = new LabelFilter(this.store.labels(), fromJson<[string, LabelDecision][]>(decisions));
     const before = sensor.onWindowClosed;
+    const periodic = (this.opts.checkpointEveryMs ?? 0) > 0;
+    if (periodic) sensor.engine.onEvict = (id) => { this.changed.add(id); };
     sensor.onWindowClosed = (w) => {
+      if (periodic) for (const h of w.hosts) this.changed.add(h.hostId);
       // a due checkpoint goes in the window's own transaction: the file never holds one without the other
       const checkpoint = this.now() >= this.nextCheckpointAt;
       this.guarded(() => {
@@ -99,7 +109,10 @@ export class SensorState {
   }
 
   private writeCheckpoint(midRun: boolean): void {
-    saveCheckpoint(this.store, this.sensor!, midRun);
+    const incremental = midRun && this.opts.incrementalCheckpoints !== false;
+    saveCheckpoint(this.store, this.sensor!, midRun, incremental ? this.changed : undefined);
+    // after a failed transaction nothing more is written (see `failed`): the set need not survive one
+    this.changed.clear();
     this.store.putState('labels', toJson(this.filter.openDecisions()));
     this.checkpoints.count++;
     this.checkpoints.lastAt = this.now();

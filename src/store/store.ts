@@ -89,6 +89,10 @@ export class StateStore {
       clearBaselines: db.prepare('DELETE FROM baselines'),
       baseline: db.prepare('INSERT INTO baselines (address, bank, slots) VALUES (?, ?, ?)'),
       baselines: db.prepare('SELECT address, bank, slots FROM baselines'),
+      dropModel: db.prepare('UPDATE hosts SET model = NULL WHERE address = ?'),
+      putBaseline: db.prepare(`INSERT INTO baselines (address, bank, slots) VALUES (?, ?, ?)
+        ON CONFLICT (address, bank) DO UPDATE SET slots = excluded.slots`),
+      dropBaseline: db.prepare('DELETE FROM baselines WHERE address = ? AND bank = ?'),
       getState: db.prepare('SELECT value FROM run_state WHERE key = ?').pluck(),
       putState: db.prepare('INSERT INTO run_state (key, value) VALUES (?, ?) ON CONFLICT (key) DO UPDATE SET value = excluded.value'),
       query: db.prepare(`SELECT * FROM alerts
@@ -167,6 +171,18 @@ export class StateStore {
   putBaselines(rows: Iterable<{ address: string; bank: string; slots: Buffer }>): void {
     this.st.clearBaselines.run();
     for (const r of rows) this.st.baseline.run(r.address, r.bank, r.slots);
+  }
+
+  /** One host's model (null: it has none any more), for a checkpoint of the hosts changed since the last. */
+  putModel(address: string, inside: boolean, lastSeen: number, model: Buffer | null): void {
+    if (model) this.st.model.run(address, inside ? 1 : 0, lastSeen, lastSeen, model);
+    else this.st.dropModel.run(address);
+  }
+
+  /** One host's baseline row of a bank (null: none to keep). */
+  putBaseline(address: string, bank: string, slots: Buffer | null): void {
+    if (slots) this.st.putBaseline.run(address, bank, slots);
+    else this.st.dropBaseline.run(address, bank);
   }
 
   baselines(): { address: string; bank: string; slots: Buffer }[] {

@@ -64,6 +64,37 @@ describe('live checkpoints', () => {
     expect(learnedState(db).hosts).not.toHaveLength(0);
   });
 
+  it('an incremental checkpoint (hosts active or evicted since the last) leaves the file as a full one does', async () => {
+    const records = await readRecords(DEMO);
+    const part = records.slice(0, Math.floor(records.length * 0.7));
+    // two days later one host talks for 90 minutes: the engine's idle scan evicts the demo's
+    // short-lived hosts, whose rows an incremental checkpoint must clear as a full one does
+    const later = part.at(-1)!.end + 2 * 86_400_000;
+    for (let i = 0; i < 90 * 6; i++) {
+      const t = later + i * 10_000;
+      part.push({ start: t, end: t + 50, proto: 6, src: '10.60.3.77', dst: '198.51.100.9', sport: 40_000 + (i % 1000), dport: 443,
+        pkts: 4, bytes: 400, rpkts: 4, rbytes: 900, flags: 0x1b, rflags: 0x1b, outcome: 'established', exporter: 't' });
+    }
+    const files: string[] = [];
+    for (const incremental of [true, false]) {
+      const db = join(dir, `incremental-${incremental}.db`);
+      files.push(db);
+      let wall = 0;
+      const state = SensorState.open(db, { checkpointEveryMs: 60 * 60_000, incrementalCheckpoints: incremental, now: () => wall });
+      const sensor = new Sensor(sensorOptions({ mode: 'live' }), state.emitter(() => {}));
+      state.attach(sensor);
+      const hooked = sensor.onWindowClosed!;
+      sensor.onWindowClosed = (w) => { wall += 60_000; hooked(w); };
+      for (const r of part) sensor.record(r);
+      expect(state.checkpoints.count).toBeGreaterThanOrEqual(3);
+      expect(sensor.engine.stats.modelsEvicted).toBeGreaterThan(0);
+      state.close(); // killed: the last periodic checkpoint is what the file holds
+    }
+    const [a, b] = files.map((f) => learnedState(f));
+    expect(a!.hosts).not.toHaveLength(0);
+    expect(a).toEqual(b);
+  });
+
   it('without an interval writes the learned state only at the stop', async () => {
     const records = await readRecords(DEMO);
     const db = join(dir, 'stop-only.db');
