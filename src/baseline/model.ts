@@ -136,6 +136,17 @@ export class BaselineBank {
     return slot < this.capacity && !Number.isNaN(this.last[slot]!);
   }
 
+  /** The markMissing intervals so far, as sorted [from, to) pairs (for the state store). */
+  missingIntervals(): number[] {
+    return [...this.gaps];
+  }
+
+  /** Replaces the markMissing intervals with those of missingIntervals() (a restored checkpoint). */
+  restoreMissingIntervals(pairs: readonly number[]): void {
+    this.gaps.length = 0;
+    for (let i = 0; i + 1 < pairs.length; i += 2) this.markMissing(pairs[i]!, pairs[i + 1]!);
+  }
+
   /** Declares that windows starting in [fromMs, toMs) had no input at all (missing, not silent). */
   markMissing(fromMs: number, toMs: number): void {
     if (!(toMs > fromMs)) return;

@@ -38,6 +38,16 @@ export class Baselines {
     this.plain.markMissing(fromMs, toMs);
   }
 
+  /** The intervals of missing input both banks hold (the same in each), for the state store. */
+  missingIntervals(): number[] {
+    return this.counts.missingIntervals();
+  }
+
+  restoreMissingIntervals(pairs: readonly number[]): void {
+    this.counts.restoreMissingIntervals(pairs);
+    this.plain.restoreMissingIntervals(pairs);
+  }
+
   /** The band of feature f for host at tMs, or null when f has no baseline. Reuses one object. */
   band(host: number, f: number, tMs: number, z: number): Band | null {
     const i = SLOT[f]!;

@@ -38,6 +38,7 @@ export function saveCheckpoint(store: StateStore, sensor: Sensor, midRun = false
   store.putState('aggregator.history.young', bytesOf(history.young));
   store.putState('aggregator.history.old', history.old ? bytesOf(history.old) : Buffer.alloc(0));
   store.putState('engine', toJson(sensor.engine.runState()));
+  store.putState('baselines.missing', toJson(sensor.engine.baselines.missingIntervals()));
   store.putState('tracker', toJson(sensor.tracker.snapshot()));
 
   const name = (id: number) => agg.addresses.name(id);
@@ -116,6 +117,9 @@ export function restoreCheckpoint(store: StateStore, sensor: Sensor): boolean {
     history: { young: f64(need('aggregator.history.young')), old: hasOld ? f64(old) : null, forgotten },
   });
   sensor.engine.restoreRunState(fromJson<EngineRunState>(need('engine')));
+  // absent from checkpoints written before it was kept: no intervals then
+  const missing = store.getState('baselines.missing');
+  sensor.engine.baselines.restoreMissingIntervals(missing ? fromJson<number[]>(missing) : []);
   sensor.tracker.restore(fromJson<TrackerState>(need('tracker')));
 
   const addresses = sensor.aggregator.addresses;

@@ -55,6 +55,31 @@ describe('restart equivalence', () => {
   });
 });
 
+describe('restart equivalence across an input gap', () => {
+  it('a gap recorded in the first run still counts as missing input for hosts that come back in the second', () => {
+    // host A talks in windows 0-29, no input at all in 30-39 (a capture gap), host B in 40-59, A again
+    // in 60-89; the split at window 50 falls after the gap and before A comes back
+    const W = 60_000, T0 = Date.UTC(2026, 2, 10, 9, 0);
+    const rec = (w: number, i: number, src: string): FlowRecord => {
+      const t = T0 + w * W + i * 1000;
+      return { start: t, end: t + 20, proto: 6, src, dst: '198.51.100.20', sport: 40_000 + i, dport: 443, pkts: 3 + (w % 3), bytes: 300 + 10 * (w % 5),
+        rpkts: 3, rbytes: 900, flags: 0x1b, rflags: 0x1b, outcome: 'established', exporter: 't' };
+    };
+    const all: FlowRecord[] = [];
+    for (let w = 0; w < 90; w++) {
+      if (w >= 30 && w < 40) continue;
+      const src = w < 30 || w >= 60 ? '10.60.1.10' : '10.60.1.11';
+      for (let i = 0; i < 5; i++) all.push(rec(w, i, src));
+    }
+    const whole = join(dir, 'gap-whole.db');
+    const split = join(dir, 'gap-split.db');
+    runWithState(whole, all);
+    runWithState(split, all.filter((r) => r.start < T0 + 50 * W));
+    runWithState(split, all.filter((r) => r.start >= T0 + 50 * W));
+    expect(learnedState(split)).toEqual(learnedState(whole));
+  });
+});
+
 describe('restart equivalence through the CLI', () => {
   it('replay of the capture in two halves with one --state gives the alert ids of the whole replay', () => {
     const args = ['--internal', LARKSPUR_INSIDE.join(','), '--format', 'jsonl', '--quiet', '--sensor', 't'];
