@@ -34,8 +34,11 @@ export class Sensor {
   /** Called after each closed window's alerts were emitted (sinks sync here). */
   onWindowClosed: ((w: ClosedWindow) => void) | null = null;
   private rules: RuleSet | undefined;
-  /** Start of the current run of windows without any input, NaN when the last window had input. */
-  private gapStart = Number.NaN;
+  /**
+   * Start of the current run of windows without any input, NaN when the last window had input (kept
+   * in the state's checkpoint: a gap may span a restart).
+   */
+  gapStart = Number.NaN;
 
   constructor(readonly opts: SensorOptions, emit: (a: Alert) => void) {
     this.aggregator = new WindowAggregator(

@@ -38,7 +38,7 @@ export function saveCheckpoint(store: StateStore, sensor: Sensor, midRun = false
   store.putState('aggregator.history.young', bytesOf(history.young));
   store.putState('aggregator.history.old', history.old ? bytesOf(history.old) : Buffer.alloc(0));
   store.putState('engine', toJson(sensor.engine.runState()));
-  store.putState('baselines.missing', toJson(sensor.engine.baselines.missingIntervals()));
+  store.putState('baselines.missing', toJson({ intervals: sensor.engine.baselines.missingIntervals(), openSince: sensor.gapStart }));
   store.putState('tracker', toJson(sensor.tracker.snapshot()));
 
   const name = (id: number) => agg.addresses.name(id);
@@ -119,7 +119,10 @@ export function restoreCheckpoint(store: StateStore, sensor: Sensor): boolean {
   sensor.engine.restoreRunState(fromJson<EngineRunState>(need('engine')));
   // absent from checkpoints written before it was kept: no intervals then
   const missing = store.getState('baselines.missing');
-  sensor.engine.baselines.restoreMissingIntervals(missing ? fromJson<number[]>(missing) : []);
+  const m = missing ? fromJson<{ intervals: number[]; openSince: number }>(missing) : { intervals: [], openSince: Number.NaN };
+  sensor.engine.baselines.restoreMissingIntervals(m.intervals);
+  // a run of empty windows still going at the checkpoint goes on in this run
+  sensor.gapStart = m.openSince;
   sensor.tracker.restore(fromJson<TrackerState>(need('tracker')));
 
   const addresses = sensor.aggregator.addresses;

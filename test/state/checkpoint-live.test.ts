@@ -95,6 +95,54 @@ describe('live checkpoints', () => {
     expect(a).toEqual(b);
   });
 
+  it('a run of empty windows cut by a checkpoint and a crash still counts as missing input whole', () => {
+    // host A in windows 0-19 and 30-59, no input at all in 20-29; the crashed run's checkpoint falls at
+    // the close of window 20, inside the gap
+    const W = 60_000, T0 = Date.UTC(2026, 2, 10, 9, 0);
+    const recs = [];
+    for (let w = 0; w < 60; w++) {
+      if (w >= 20 && w < 30) continue;
+      for (let i = 0; i < 5; i++) {
+        const t = T0 + w * W + i * 1000;
+        recs.push({ start: t, end: t + 20, proto: 6, src: '10.60.1.10', dst: '198.51.100.20', sport: 40_000 + i, dport: 443, pkts: 3 + (w % 3),
+          bytes: 300 + 10 * (w % 5), rpkts: 3, rbytes: 900, flags: 0x1b, rflags: 0x1b, outcome: 'established' as const, exporter: 't' });
+      }
+    }
+    const before = recs.filter((r) => r.start < T0 + 20 * W), after = recs.filter((r) => r.start >= T0 + 30 * W);
+    const inGap = T0 + 26 * W + 5_000; // event time moved on by idleness: windows up to 25 close
+    const whole = join(dir, 'gap-whole.db'), crashed = join(dir, 'gap-crashed.db');
+    {
+      const state = SensorState.open(whole);
+      const sensor = new Sensor(sensorOptions({ mode: 'live' }), state.emitter(() => {}));
+      state.attach(sensor);
+      for (const r of before) sensor.record(r);
+      sensor.advance(inGap);
+      for (const r of after) sensor.record(r);
+      state.suspend();
+      state.close();
+    }
+    {
+      let wall = 0;
+      const state = SensorState.open(crashed, { checkpointEveryMs: 1_000, now: () => wall });
+      const sensor = new Sensor(sensorOptions({ mode: 'live' }), state.emitter(() => {}));
+      state.attach(sensor);
+      const hooked = sensor.onWindowClosed!;
+      // the checkpoint falls due at window 20's close, the first of the gap (every window with data closed)
+      sensor.onWindowClosed = (w) => { wall = w.start === T0 + 20 * W ? 1_000 : 0; hooked(w); };
+      for (const r of before) sensor.record(r);
+      sensor.advance(inGap);
+      expect(state.checkpoints.count).toBe(1);
+      state.close(); // killed in the gap
+      const again = SensorState.open(crashed);
+      const restored = new Sensor(sensorOptions({ mode: 'live' }), again.emitter(() => {}));
+      again.attach(restored);
+      for (const r of after) restored.record(r);
+      again.suspend();
+      again.close();
+    }
+    expect(learnedState(crashed)).toEqual(learnedState(whole));
+  });
+
   it('without an interval writes the learned state only at the stop', async () => {
     const records = await readRecords(DEMO);
     const db = join(dir, 'stop-only.db');
