@@ -20,6 +20,8 @@ import { NetflowV9Decoder } from '../../src/flowlog/netflow9.js';
 import { rowToFlow } from '../../src/flowlog/row.js';
 import { LIMITS, TemplateBudget } from '../../src/flowlog/session.js';
 import { ingestCsv, ingestJsonl } from '../../src/flowlog/textlog.js';
+import { ingestVpcFlowLog } from '../../src/flowlog/vpclog.js';
+import { DEFAULT_VPC_FIELDS } from '../../src/ingest/sniff.js';
 import { Wire, ipfixMessage, ipfixSet, memorySource, templateRecord } from '../../src/flowlog/testing.js';
 import { DEFAULT_INGEST, type IngestOptions } from '../../src/ingest/types.js';
 import { loadRules } from '../../src/rules/load.js';
@@ -27,7 +29,7 @@ import type { InputProblem } from '../../src/util/problem.js';
 import { loadCorpus } from './corpus.js';
 import { mutate } from './mutate.js';
 
-export const PARSERS = ['pcap', 'pcapng', 'decode', 'ipfix', 'netflow9', 'csv', 'jsonl', 'rules'] as const;
+export const PARSERS = ['pcap', 'pcapng', 'decode', 'ipfix', 'netflow9', 'csv', 'jsonl', 'vpc-flowlog', 'rules'] as const;
 export type ParserName = (typeof PARSERS)[number];
 
 export interface Target {
@@ -310,6 +312,36 @@ function textTargets(kind: 'csv' | 'jsonl'): Target[] {
   ];
 }
 
+/** A default-layout VPC flow-log record (AWS VPC User Guide, "Flow log record examples"), as words. */
+const VPC_GOOD = '2 123456789010 eni-1235b8ca123456789 172.31.16.139 172.31.16.21 20641 22 6 20 4249 1418530010 1418530070 ACCEPT OK'.split(' ');
+const VPC_WORDS = ['-', '', 'NODATA', 'SKIPDATA', 'REJECT', '2001:db8::1', '::ffff:1.2.3.4', '99999999999999999999', '-5', '1e999', '0x10', 'NaN'];
+
+function vpcTargets(): Target[] {
+  const word = fc.oneof(fc.string({ maxLength: 12 }), fc.constantFrom(...VPC_WORDS));
+  const record = fc.oneof(
+    fc.string({ maxLength: 80 }),
+    fc.array(fc.tuple(fc.nat(VPC_GOOD.length - 1), word), { maxLength: 5 }).map((edits) => {
+      const w = [...VPC_GOOD];
+      for (const [i, x] of edits) w[i] = x;
+      return w.join(' ');
+    }),
+  );
+  // a header line of some fields in some order (srcaddr and dstaddr make it one), or none
+  const header = fc.option(fc.shuffledSubarray([...DEFAULT_VPC_FIELDS, 'tcp-flags', 'pkt-srcaddr', 'pkt-dstaddr'])
+    .map((f) => [...new Set(['srcaddr', 'dstaddr', ...f])].join(' ')));
+  return [{
+    parser: 'vpc-flowlog', name: 'files', share: 1,
+    property: () => fc.asyncProperty(header, fc.array(record, { maxLength: 8 }), fc.integer({ min: 1, max: 64 }), async (h, lines, chunk) => {
+      const text = new TextEncoder().encode([...(h === null ? [] : [h]), ...lines].join('\n'));
+      let bad = 0;
+      const s = await ingestVpcFlowLog(memorySource(text, chunk), checkRecord, {
+        ...DEFAULT_INGEST, onProblem: (p) => { bad++; check((p.line ?? 0) >= 1, 'problem without a line'); },
+      });
+      check(s.flows + bad <= lines.length + 1, 'more flows and problems than lines');
+    }),
+  }];
+}
+
 // ---- rule files ----------------------------------------------------------------------------------
 
 const YAML_BITS = ['rules:', '  - id: x', '    detector: volume-surge', '    enabled: false', 'inside: [10.0.0.0/8]', '&a', '*a', '!!js/function',
@@ -358,7 +390,7 @@ function rulesTargets(): Target[] {
 export function allTargets(): Target[] {
   return [
     ...captureTargets('pcap'), ...captureTargets('pcapng'), ...decodeTargets(),
-    ...exportTargets('ipfix'), ...exportTargets('netflow9'), ...textTargets('csv'), ...textTargets('jsonl'), ...rulesTargets(),
+    ...exportTargets('ipfix'), ...exportTargets('netflow9'), ...textTargets('csv'), ...textTargets('jsonl'), ...vpcTargets(), ...rulesTargets(),
   ];
 }
 
