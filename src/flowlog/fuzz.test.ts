@@ -66,7 +66,6 @@ describe('fuzzing the flow-export decoders (fast-check)', () => {
       for (const o of offsets) expect(o).toBeLessThan(b.length + 1);
     }), { numRuns: 300 });
   });
-
 });
 
 describe('fuzzing the flow-log readers (fast-check)', () => {
@@ -86,5 +85,4 @@ describe('fuzzing the flow-log readers (fast-check)', () => {
       }
     }), { numRuns: 300 });
   });
-
 });
