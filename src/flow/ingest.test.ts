@@ -55,6 +55,17 @@ describe('ingestCapture', () => {
     expect(recs.map((r) => [r.proto, r.outcome, r.exporter])).toEqual([[6, 'established', 'a.pcap'], [17, 'unanswered', 'a.pcap']]);
   });
 
+  it('a packet with a corrupt timestamp a year ahead is skipped and reported; the flows are as without it', async () => {
+    const year = 365 * 86_400;
+    const bogus: [number, Uint8Array] = [year, ether(0x0800, ipv4({ src: '10.60.2.77', dst: S, proto: 17, payload: udp(5001, 53, 30) }))];
+    const clean = await ingest(write('clean.pcap', frames));
+    const { summary, recs, problems } = await ingest(write('bogus.pcap', [...frames.slice(0, 2), bogus, ...frames.slice(2)]));
+    expect(recs).toEqual(clean.recs.map((r) => ({ ...r, exporter: 'bogus.pcap' })));
+    expect(summary).toMatchObject({ packets: 6, lastMs: (T0 + 65) * 1000, problemCounts: { arp: 1, 'timestamp-outlier': 1 } });
+    // its record header follows the file header (24) and two records of 16 + 54 octets (SYN, SYN-ACK)
+    expect(problems.map((p) => [p.reason, p.offset])).toEqual([['timestamp-outlier', 24 + 2 * (16 + 54)]]);
+  });
+
   it('a truncated file keeps the flows before the cut and reports it', async () => {
     const path = write('b.pcap', frames);
     const bytes = readFileSync(path);

@@ -7,6 +7,7 @@ import type { IngestOptions, IngestSummary } from '../ingest/types.js';
 import type { InputProblem } from '../util/problem.js';
 import type { FlowSink } from './record.js';
 import { FlowTable } from './table.js';
+import { ForwardJumpGuard, outlierProblem } from './time-guard.js';
 
 /**
  * The capture ingest path: ByteSource -> capture reader -> decoder -> flow table -> sink. Bad data never
@@ -28,9 +29,13 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
   // flow-export datagrams (ingest/export-sniff.ts): a capture made of them is better read with
   // --input-format export-capture (the CLI says so)
   let exportLike = 0;
+  let stoppedBy: InputProblem | undefined;
+  const onProblem = (p: InputProblem) => {
+    if (p.fatal && !stoppedBy) stoppedBy = p;
+    opts.onProblem?.(p);
+  };
   // one closure per input, none per packet
-  const onPacket: PacketSink = (buf, off, capLen, _origLen, tsSec, tsNs, linkType) => {
-    const ts = tsSec * 1000 + tsNs / 1e6;
+  const take = (buf: Uint8Array, off: number, capLen: number, linkType: number, ts: number) => {
     if (!(ts >= span[0]!)) span[0] = ts;
     if (!(ts <= span[1]!)) span[1] = ts;
     if (decoder.decode(buf, off, capLen, linkType)) {
@@ -39,15 +44,16 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
       table.add(view);
     } else table.advance(ts);
   };
-  let stoppedBy: InputProblem | undefined;
-  const onProblem = (p: InputProblem) => {
-    if (p.fatal && !stoppedBy) stoppedBy = p;
-    opts.onProblem?.(p);
+  const guard = new ForwardJumpGuard(take, (ts, latest, fileOff) => onProblem(outlierProblem(src.name, ts, latest, fileOff)));
+  const onPacket: PacketSink = (buf, off, capLen, _origLen, tsSec, tsNs, linkType, fileOff) => {
+    guard.packet(buf, off, capLen, linkType, tsSec * 1000 + tsNs / 1e6, fileOff);
   };
   const cap = await readCapture(src, onPacket, onProblem);
+  guard.finish();
   table.flush();
 
   const problemCounts: Record<string, number> = { ...cap.problemCounts };
+  if (guard.outliers > 0) problemCounts['timestamp-outlier'] = guard.outliers;
   for (const part of [decoder.stats.toObject(), table.problemCounts()]) {
     for (const [k, n] of Object.entries(part)) problemCounts[k] = (problemCounts[k] ?? 0) + n;
   }

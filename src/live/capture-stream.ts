@@ -4,6 +4,7 @@ import type { CaptureSummary, PacketSink } from '../capture/types.js';
 import { Decoder } from '../decode/decoder.js';
 import type { FlowSink } from '../flow/record.js';
 import { FlowTable } from '../flow/table.js';
+import { ForwardJumpGuard, outlierProblem } from '../flow/time-guard.js';
 import { DEFAULT_INGEST } from '../ingest/types.js';
 import type { InputProblem } from '../util/problem.js';
 
@@ -30,6 +31,8 @@ export class LiveCapture {
   readonly decoder = new Decoder();
   readonly table: FlowTable;
   private ended = false;
+  /** Holds a packet dated far ahead until the next one confirms it (flow/time-guard.ts). */
+  private readonly guard: ForwardJumpGuard;
 
   constructor(opts: LiveCaptureOptions, sink: FlowSink) {
     const decoder = this.decoder;
@@ -44,11 +47,14 @@ export class LiveCapture {
     this.table = table;
     const onTime = opts.onPacketTime;
     // one closure per capture, none per packet
-    const onPacket: PacketSink = (buf, off, capLen, _origLen, tsSec, tsNs, linkType) => {
-      const ts = tsSec * 1000 + tsNs / 1e6;
+    const take = (buf: Uint8Array, off: number, capLen: number, linkType: number, ts: number) => {
       onTime?.(ts);
       if (decoder.decode(buf, off, capLen, linkType)) { view.tsMs = ts; table.add(view); }
       else table.advance(ts);
+    };
+    const guard = this.guard = new ForwardJumpGuard(take, (ts, latest, fileOff) => opts.onProblem?.(outlierProblem(opts.file, ts, latest, fileOff)));
+    const onPacket: PacketSink = (buf, off, capLen, _origLen, tsSec, tsNs, linkType, fileOff) => {
+      guard.packet(buf, off, capLen, linkType, tsSec * 1000 + tsNs / 1e6, fileOff);
     };
     this.parser = new CaptureParser(opts.file, onPacket, opts.onProblem);
   }
@@ -68,6 +74,7 @@ export class LiveCapture {
     if (!this.ended) {
       this.ended = true;
       this.parser.end();
+      this.guard.finish();
       this.table.flush();
     }
     return this.parser.summary;
