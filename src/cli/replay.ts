@@ -50,7 +50,8 @@ export function register(program: Command): void {
       for (const l of describeInputs(summaries)) process.stderr.write(`${l}\n`);
       const st = sensor.aggregator.stats;
       const kinds = [...output.counts.entries()].map(([k, n]) => `${k}=${n}`).join(', ');
-      process.stderr.write(`windows ${st.windowsClosed}, hosts ${sensor.aggregator.addresses.size}, late records ${st.late}; `
+      process.stderr.write(`windows ${st.windowsClosed}, hosts ${sensor.aggregator.addresses.size}, late records ${st.late}`
+        + `${st.timeOutliers > 0 ? `, records with a corrupt time ${st.timeOutliers}` : ''}; `
         + `alerts ${output.total}${kinds ? ` (${kinds})` : ''}; suppressed by budget ${sensor.tracker.counters.suppressedByBudget}\n`);
       process.stderr.write(`${formatCapCounts(sensorCapCounts(sensor, inputCapCounts(summaries)))}\n`);
       if (state) process.stderr.write(`${state.summary()}\n`);

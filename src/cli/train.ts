@@ -38,7 +38,8 @@ export function register(program: Command): void {
         for (const l of describeInputs(summaries)) process.stderr.write(`${l}\n`);
         const st = sensor.aggregator.stats;
         process.stderr.write(`state ${raw.state}: ${state.restored ? 'continued' : 'new'}, windows ${st.windowsClosed}, `
-          + `hosts ${sensor.aggregator.addresses.size}, models ${sensor.engine.models.size}, peer pairs ${sensor.aggregator.history.size}, late records ${st.late}\n`);
+          + `hosts ${sensor.aggregator.addresses.size}, models ${sensor.engine.models.size}, peer pairs ${sensor.aggregator.history.size}, late records ${st.late}`
+          + `${st.timeOutliers > 0 ? `, records with a corrupt time ${st.timeOutliers}` : ''}\n`);
         process.stderr.write(`${formatCapCounts(sensorCapCounts(sensor, inputCapCounts(summaries)))}\n`);
       }
       if (unreadable.length === inputs.length) throw inputError(`no readable input (${unreadable.join(', ')})`);

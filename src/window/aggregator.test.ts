@@ -22,6 +22,32 @@ function make() {
 }
 
 describe('WindowAggregator', () => {
+  it('drops a record dated a year ahead when the next one is back at the input time; takes a real jump (ours)', () => {
+    const year = 365 * 86_400_000;
+    const a = make();
+    const shared = r('10.60.1.1', '10.60.0.2', T0 + 1_000);
+    a.agg.add(shared);
+    // the caller reuses its record object: the held one must be a copy
+    Object.assign(shared, { start: T0 + year, end: T0 + year + 10, src: '10.60.1.99' });
+    a.agg.add(shared);
+    Object.assign(shared, { start: T0 + 2_000, end: T0 + 2_010, src: '10.60.1.1' });
+    a.agg.add(shared);
+    a.agg.finish();
+    expect(a.agg.stats.timeOutliers).toBe(1);
+    expect(a.closed).toHaveLength(1);
+    expect(a.closed[0]!.hosts.has('10.60.1.99')).toBe(false);
+    expect(a.closed[0]!.hosts.get('10.60.0.2')![F.flows_in]).toBe(2);
+
+    const b = make();
+    b.agg.add(r('10.60.1.1', '10.60.0.2', T0 + 1_000));
+    b.agg.add(r('10.60.1.5', '10.60.0.2', T0 + 3 * 86_400_000)); // the input resumes three days later
+    b.agg.add(r('10.60.1.6', '10.60.0.2', T0 + 3 * 86_400_000 + 500));
+    b.agg.finish();
+    expect(b.agg.stats.timeOutliers).toBe(0);
+    expect(b.agg.stats.records).toBe(3);
+    expect(b.closed.at(-1)!.hosts.has('10.60.1.5')).toBe(true);
+  });
+
   it('closes a window once the watermark (latest time minus lateness) passes its end; later records for it are late (common practice, no source)', () => {
     const { agg, closed } = make();
     agg.add(r('10.60.1.1', '10.60.0.2', T0 + 1_000));

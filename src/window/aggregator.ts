@@ -1,6 +1,7 @@
 import type { FlowRecord } from '../flow/record.js';
 import type { CidrSet } from '../util/addr.js';
 import { isNonHost } from '../util/addr.js';
+import { MAX_FORWARD_JUMP_MS } from '../flow/time-guard.js';
 import { AddressTable, type AddressTableSnapshot } from './intern.js';
 import { PairHistory, type PairHistorySnapshot } from './pair-history.js';
 import { HostAcc } from './host-acc.js';
@@ -110,9 +111,12 @@ export class WindowAggregator {
   private maxTime = Number.NEGATIVE_INFINITY;
   /**
    * `hostsOverCap`: records dropped because they would have added an address past `maxHosts`;
+   * `timeOutliers`: records dropped for a corrupt time (more than a day past the input's, alone);
    * `sketchCapped`: host-windows whose exact sets or entropy counters reached their bounds.
    */
-  readonly stats = { records: 0, late: 0, nonHostDst: 0, windowsClosed: 0, lateVolumeMoved: 0, hostsOverCap: 0, sketchCapped: 0 };
+  readonly stats = { records: 0, late: 0, nonHostDst: 0, windowsClosed: 0, lateVolumeMoved: 0, hostsOverCap: 0, sketchCapped: 0, timeOutliers: 0 };
+  /** A record dated more than MAX_FORWARD_JUMP_MS past the latest event time, until the next record comes. */
+  private held: FlowRecord | null = null;
   /** Distinct addresses tracked at most (see WindowOptions.maxHosts); may be changed between inputs. */
   maxHosts: number;
   private readonly W: number;
@@ -133,6 +137,34 @@ export class WindowAggregator {
   }
 
   add(r: FlowRecord): void {
+    // a record dated far past everything so far waits for the next one's verdict (flow/time-guard.ts)
+    if (this.held !== null || r.start - this.maxTime > MAX_FORWARD_JUMP_MS) {
+      this.judge(r);
+      return;
+    }
+    this.take(r);
+  }
+
+  /**
+   * A record held for its time, or the one after it: when the next record is past the jump too, time
+   * moved on and both count; when it is back at the input's time, the held one had a corrupt time and
+   * is dropped (`timeOutliers`).
+   */
+  private judge(r: FlowRecord): void {
+    const h = this.held;
+    if (h === null) {
+      // a copy: callers may hand in one record object filled anew each time
+      if (this.maxTime !== Number.NEGATIVE_INFINITY) { this.held = { ...r }; return; }
+      this.take(r);
+      return;
+    }
+    this.held = null;
+    if (r.start - this.maxTime > MAX_FORWARD_JUMP_MS) this.take(h);
+    else this.stats.timeOutliers++;
+    this.add(r);
+  }
+
+  private take(r: FlowRecord): void {
     this.stats.records++;
     const first = Math.floor(r.start / this.W);
     // the window holding the record's last instant (an end exactly on a boundary belongs before it)
@@ -240,6 +272,8 @@ export class WindowAggregator {
 
   /** Closes every open window (end of input). */
   finish(): void {
+    const h = this.held;
+    if (h !== null) { this.held = null; this.take(h); }
     if (Number.isNaN(this.nextClose)) return;
     let last = this.nextClose - 1;
     for (const w of this.open.keys()) if (w > last) last = w;
