@@ -67,6 +67,13 @@ describe('parseIpv6', () => {
 });
 
 describe('CidrSet', () => {
+  it('knows the directed broadcast of each IPv4 prefix from /8 to /30 (RFC 1122 section 3.2.1.3, from memory)', () => {
+    const set = new CidrSet(['192.168.1.0/24', '10.0.0.0/8', '172.16.4.0/31', '198.51.100.7/32', '2001:db8::/64']);
+    expect(['192.168.1.255', '10.255.255.255'].map((a) => set.isBroadcast(a))).toEqual([true, true]);
+    // host parts that are not all ones, prefixes without a broadcast (/31, /32), IPv6 (none at all)
+    expect(['192.168.1.254', '10.60.1.255', '172.16.4.1', '198.51.100.7', '2001:db8::ffff:ffff:ffff:ffff', 'x'].map((a) => set.isBroadcast(a)))
+      .toEqual([false, false, false, false, false, false]);
+  });
   // the membership test before the fast paths, kept as the reference
   function refHas(cidrs: string[], addr: string): boolean {
     if (!ipaddr.isValid(addr)) return false;

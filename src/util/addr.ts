@@ -197,6 +197,22 @@ export class CidrSet {
     const full = addrBytes(addr);
     return full !== null && this.cidrs.some((c) => inCidr(full, c));
   }
+  /**
+   * The directed broadcast of one of the IPv4 prefixes, /8 to /30: its host part all ones (RFC 1122
+   * section 3.2.1.3, from memory). Traffic to it reaches every host of the subnet, no one host.
+   */
+  isBroadcast(addr: string): boolean {
+    const a = parseIpv4(addr);
+    if (a < 0) return false;
+    const t = this.v4;
+    for (let i = 0; i < t.length; i += 2) {
+      const mask = t[i + 1]!;
+      const hostBits = (~mask) >>> 0;
+      if (hostBits >= 3 && hostBits <= 0xffffff && ((t[i]! | hostBits) >>> 0) === a) return true;
+    }
+    return false;
+  }
+
   private hasV4(a: number): boolean {
     const t = this.v4;
     for (let i = 0; i < t.length; i += 2) if (((a & t[i + 1]!) >>> 0) === t[i]) return true;

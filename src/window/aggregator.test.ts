@@ -22,6 +22,16 @@ function make() {
 }
 
 describe('WindowAggregator', () => {
+  it('a directed broadcast of an inside prefix is no target host (RFC 1122 section 3.2.1.3, from memory)', () => {
+    const closed: ClosedWindow[] = [];
+    const agg = new WindowAggregator({ windowMs: 60_000, latenessMs: 5_000, internal: new CidrSet(['192.168.1.0/24']) }, (w) => closed.push(w));
+    agg.add(r('192.168.1.20', '192.168.1.255', T0 + 1_000));
+    agg.add(r('192.168.1.21', '192.168.1.254', T0 + 2_000));
+    agg.finish();
+    expect(agg.stats.nonHostDst).toBe(1);
+    expect(closed[0]!.hosts.map((h) => agg.addresses.name(h.hostId)).sort()).toEqual(['192.168.1.20', '192.168.1.21', '192.168.1.254']);
+  });
+
   it('drops a record dated a year ahead when the next one is back at the input time; takes a real jump (ours)', () => {
     const year = 365 * 86_400_000;
     const a = make();

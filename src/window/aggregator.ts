@@ -99,7 +99,7 @@ export class WindowAggregator {
   /** Inside addresses seen so far. */
   insideHosts = 0;
   private insideSeen = new Uint8Array(1024);
-  /** Per address id: 0 not looked at yet, 1 a host, 2 not a host (multicast, broadcast, unspecified). */
+  /** Per address id: 0 not looked at yet, 1 a host, 2 not a host (multicast, broadcast, an inside prefix's directed broadcast, unspecified). */
   private nonHostSeen = new Uint8Array(1024);
   private recent = new Map<number, RecentPeer[]>();
   private open = new Map<number, HostBucket>();
@@ -202,7 +202,7 @@ export class WindowAggregator {
     src.asInitiator(r, dstId, newPair, share);
     if (srcInside) this.trackNewPeer(src, srcId, dstId, newPair, r);
     let nh = this.nonHostSeen[dstId]!;
-    if (nh === 0) this.nonHostSeen[dstId] = nh = isNonHost(r.dst) ? 2 : 1;
+    if (nh === 0) this.nonHostSeen[dstId] = nh = isNonHost(r.dst) || this.opts.internal.isBroadcast(r.dst) ? 2 : 1;
     const toHost = nh === 1;
     if (toHost) this.acc(bucket, dstId).asResponder(r, srcId, share);
     else this.stats.nonHostDst++;
