@@ -95,6 +95,13 @@ export class RecordSplitter {
   }
 }
 
+/** A record's text: without a final CR, and without the UTF-8 BOM on the first line. */
+export function recordText(b: Buffer, s: number, e: number, line: number): string {
+  if (e > s && b[e - 1] === 0x0d) e--;
+  if (line === 1 && e - s >= 3 && b[s] === 0xef && b[s + 1] === 0xbb && b[s + 2] === 0xbf) s += 3;
+  return b.toString('utf8', s, e);
+}
+
 /** Shared bookkeeping of the text readers. */
 export class TextIngest {
   readonly problems = new ProblemCounter();
@@ -142,9 +149,7 @@ export const tooLongMessage = `line longer than ${MAX_LINE_BYTES} bytes skipped`
 export async function ingestJsonl(src: ByteSource, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
   const t = new TextIngest(src.name, sink, opts);
   const split = new RecordSplitter(false, (b, s, e, line) => {
-    if (e > s && b[e - 1] === 0x0d) e--;
-    if (line === 1 && e - s >= 3 && b[s] === 0xef && b[s + 1] === 0xbb && b[s + 2] === 0xbf) s += 3;
-    const text = b.toString('utf8', s, e);
+    const text = recordText(b, s, e, line);
     let v: unknown;
     try {
       v = JSON.parse(text);

@@ -2,7 +2,7 @@ import type { FlowSink } from '../flow/record.js';
 import type { ByteSource } from '../ingest/source.js';
 import { DEFAULT_VPC_FIELDS, isVpcHeader } from '../ingest/sniff.js';
 import type { IngestOptions, IngestSummary } from '../ingest/types.js';
-import { RecordSplitter, TextIngest, tooLongMessage } from './textlog.js';
+import { RecordSplitter, TextIngest, recordText, tooLongMessage } from './textlog.js';
 
 /** VPC field name -> FlowRecord field (rowToFlow's keys); fields not listed are read for nothing. */
 const FIELD_KEYS: Record<string, string> = {
@@ -14,8 +14,8 @@ const FIELD_KEYS: Record<string, string> = {
  * A VPC flow log as FlowRecords. Each record counts one direction of a flow on one network interface
  * within an aggregation interval (so a connection usually shows as two records, one each way): it is
  * read as a one-way record, `start` and `end` in epoch seconds. `action` REJECT makes the outcome
- * `rejected` (and a TCP record of a layout without `tcp-flags` an attempt: SYN); otherwise the outcome follows the one-way rules (docs/flow-inputs.md) on `tcp-flags` when
- * the layout has it. `pkt-srcaddr` / `pkt-dstaddr`, when present and not `-`, name the packet's own
+ * `rejected` (and a TCP record of a layout without `tcp-flags` an attempt: SYN); otherwise the outcome
+ * follows the one-way rules (docs/flow-inputs.md) on `tcp-flags` when the layout has it. `pkt-srcaddr` / `pkt-dstaddr`, when present and not `-`, name the packet's own
  * endpoints (traffic through a NAT gateway or a load balancer) and are taken over `srcaddr` / `dstaddr`.
  * NODATA and SKIPDATA records carry no flow: they are counted (`noDataRecords`, `skippedDataRecords`:
  * the interface's flows of that interval the provider could not record). Exporter label: the file's
@@ -32,9 +32,7 @@ export async function ingestVpcFlowLog(src: ByteSource, sink: FlowSink, opts: In
     names.forEach((n, i) => { at[n] ??= i; });
   };
   const split = new RecordSplitter(false, (b, s, e, line) => {
-    if (e > s && b[e - 1] === 0x0d) e--;
-    if (line === 1 && e - s >= 3 && b[s] === 0xef && b[s + 1] === 0xbb && b[s + 2] === 0xbf) s += 3;
-    const text = b.toString('utf8', s, e).trim();
+    const text = recordText(b, s, e, line).trim();
     if (text === '') return;
     if (fields === null) {
       if (isVpcHeader(text)) { layout(text.split(/\s+/)); return; }

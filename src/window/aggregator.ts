@@ -138,7 +138,7 @@ export class WindowAggregator {
 
   add(r: FlowRecord): void {
     // a record dated far past everything so far waits for the next one's verdict (flow/time-guard.ts)
-    if (this.held !== null || r.start - this.maxTime > MAX_FORWARD_JUMP_MS) {
+    if (this.held !== null || (r.start - this.maxTime > MAX_FORWARD_JUMP_MS && this.maxTime !== Number.NEGATIVE_INFINITY)) {
       this.judge(r);
       return;
     }
@@ -154,8 +154,7 @@ export class WindowAggregator {
     const h = this.held;
     if (h === null) {
       // a copy: callers may hand in one record object filled anew each time
-      if (this.maxTime !== Number.NEGATIVE_INFINITY) { this.held = { ...r }; return; }
-      this.take(r);
+      this.held = { ...r };
       return;
     }
     this.held = null;
