@@ -1,6 +1,7 @@
 import type { Command } from 'commander';
 import type { Alert } from '../alert/alert.js';
 import { Sensor } from '../sensor/sensor.js';
+import type { WindowAggregator } from '../window/aggregator.js';
 import { AlertOutput } from './alert-output.js';
 import { addReadThreadOption, addSensorOptions, applyLateness, parseSensorOptions, type RawSensorOptions } from './options.js';
 import { describeInputs, runInputs } from './run-inputs.js';
@@ -51,7 +52,8 @@ export function register(program: Command): void {
       const st = sensor.aggregator.stats;
       const kinds = [...output.counts.entries()].map(([k, n]) => `${k}=${n}`).join(', ');
       process.stderr.write(`windows ${st.windowsClosed}, hosts ${sensor.aggregator.addresses.size}, late records ${st.late}`
-        + `${st.timeOutliers > 0 ? `, records with a corrupt time ${st.timeOutliers}` : ''}; `
+        + `${st.timeOutliers > 0 ? `, records with a corrupt time ${st.timeOutliers}` : ''}`
+        + `${broadcastNote(sensor.aggregator)}; `
         + `alerts ${output.total}${kinds ? ` (${kinds})` : ''}; suppressed by budget ${sensor.tracker.counters.suppressedByBudget}\n`);
       process.stderr.write(`${formatCapCounts(sensorCapCounts(sensor, inputCapCounts(summaries)))}\n`);
       if (state) process.stderr.write(`${state.summary()}\n`);
@@ -60,4 +62,11 @@ export function register(program: Command): void {
     if (unreadable.length > 0) process.exitCode = EXIT_INPUT;
     else if (raw.failOnAlert && output.total > 0) process.exitCode = EXIT_ALERTS;
   });
+}
+
+/** `, subnet broadcasts set aside N (ADDR, ...)` when the window stage found any (aggregator.isBroadcastSink). */
+function broadcastNote(agg: WindowAggregator): string {
+  const n = agg.stats.broadcastSinks;
+  if (n === 0) return '';
+  return `, host-windows of subnet broadcasts set aside ${n} (${[...agg.broadcastNames].join(', ')}${agg.moreBroadcastNames ? ', ...' : ''})`;
 }

@@ -36,6 +36,20 @@ describe('detector engine', () => {
     expect(open.map((a) => [a.kind, a.host])).toContainEqual(['horizontal-scan', '192.0.2.67']);
   });
 
+  it('stays quiet on a LAN\'s name-service broadcasts to its subnet broadcast, yet flags a UDP flood of a host (RFC 1122 section 3.2.1.3, from memory)', () => {
+    const recs: FlowRecord[] = [];
+    const udp = (src: string, dst: string, t: number): FlowRecord => ({
+      start: t, end: t, proto: 17, src, dst, sport: 138, dport: 138, pkts: 1, bytes: 229, rpkts: 0, rbytes: 0, flags: 0, rflags: 0, outcome: 'unanswered', exporter: 't',
+    });
+    // 120 hosts of 10.60.4.0/23 (wider than any --internal prefix given) announce themselves every minute
+    for (let m = 0; m < 15; m++) for (let h = 0; h < 120; h++) recs.push(udp(`10.60.${4 + (h & 1)}.${1 + (h >> 1)}`, '10.60.5.255', T0 + m * 60_000 + h * 400));
+    // the same shape to a host that answers nothing, from outside sources: a flood
+    for (let h = 0; h < 120; h++) recs.push(udp(`198.51.100.${1 + h}`, '10.60.0.9', T0 + 600_000 + h * 300));
+    const open = run(recs).filter((a) => a.state === 'open');
+    expect(open.filter((a) => a.host === '10.60.5.255')).toEqual([]);
+    expect(open.map((a) => [a.kind, a.host])).toContainEqual(['fan-in-flood', '10.60.0.9']);
+  });
+
   it('stays quiet on a host whose attempts succeed (no scan without failures)', () => {
     const recs: FlowRecord[] = [];
     for (let i = 0; i < 300; i++) {

@@ -1,7 +1,7 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
 import ipaddr from 'ipaddr.js';
-import { CidrSet, ipv4ToString, ipv6ToString, parseIpv4, parseIpv6 } from './addr.js';
+import { broadcastHostBits, CidrSet, ipv4ToString, ipv6ToString, parseIpv4, parseIpv6 } from './addr.js';
 
 // Reference: ipaddr.js (the full parser the fast paths stand in front of) and RFC 4291 section 2.2
 // (text forms of IPv6 addresses: hex groups, one "::" for one or more zero groups).
@@ -63,6 +63,14 @@ describe('parseIpv6', () => {
     for (const s of ['', ':', ':1', '1:', '1::2::3', '1:::2', '12345::', '1:2:3:4:5:6:7:8:9', '1:2:3:4:5:6:7:8::', '::ffff:1.2.3.4', 'fe80::1%eth0', 'g::']) {
       expect(parseIpv6(s, out)).toBe(false);
     }
+  });
+});
+
+describe('broadcastHostBits', () => {
+  it('is the trailing one bits of a /8 to /30 directed broadcast, else 0 (RFC 1122 section 3.2.1.3, from memory)', () => {
+    const bits = (s: string) => broadcastHostBits(parseIpv4(s));
+    expect(['192.168.2.255', '192.168.5.255', '10.255.255.255', '10.0.0.3', '10.0.0.127'].map(bits)).toEqual([8, 9, 24, 2, 7]);
+    expect(['10.0.0.1', '10.0.0.2', '10.0.0.254'].map(bits)).toEqual([0, 0, 0]);
   });
 });
 

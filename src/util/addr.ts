@@ -220,6 +220,17 @@ export class CidrSet {
   }
 }
 
+/**
+ * Host bits of the widest prefix, /8 to /30, whose directed broadcast (host part all ones, RFC 1122
+ * section 3.2.1.3, from memory) the IPv4 address `a` is: its trailing one bits, at most 24; 0 when it
+ * has fewer than 2 (no /8 to /30 prefix has it as its broadcast).
+ */
+export function broadcastHostBits(a: number): number {
+  let k = 0;
+  while (k < 24 && Math.floor(a / 2 ** k) % 2 === 1) k++;
+  return k >= 2 ? k : 0;
+}
+
 /** Multicast, broadcast and unspecified destinations are not hosts (METHODS.md section 9). */
 export function isNonHost(addr: string): boolean {
   if (addr.includes(':')) return addr.startsWith('ff') || addr === '::';

@@ -32,6 +32,25 @@ describe('WindowAggregator', () => {
     expect(closed[0]!.hosts.map((h) => agg.addresses.name(h.hostId)).sort()).toEqual(['192.168.1.20', '192.168.1.21', '192.168.1.254']);
   });
 
+  it('an address that behaves as a subnet broadcast is no target host, whatever the inside list says (RFC 1122 section 3.2.1.3, from memory)', () => {
+    const closed: ClosedWindow[] = [];
+    const agg = new WindowAggregator({ windowMs: 60_000, latenessMs: 5_000, internal: new CidrSet(['192.168.0.0/16']) }, (w) => closed.push(w));
+    const oneWay = (src: string, dst: string, t: number, proto = 17): FlowRecord => ({ ...r(src, dst, t), proto, sport: 138, dport: 138, rpkts: 0, rbytes: 0, outcome: 'unanswered' });
+    // a /23's broadcast, 192.168.5.255: sources from both halves of 192.168.4.0/23, nothing back
+    for (let i = 1; i <= 6; i++) agg.add(oneWay(`192.168.${4 + (i % 2)}.${i}`, '192.168.5.255', T0 + i * 1_000));
+    // the same shape to a .255 that answers, and to one reached over TCP: hosts
+    for (let i = 1; i <= 3; i++) agg.add(r(`192.168.6.${i}`, '192.168.6.255', T0 + 10_000 + i));
+    for (let i = 1; i <= 3; i++) agg.add(oneWay(`192.168.7.${i}`, '192.168.7.255', T0 + 20_000 + i, 6));
+    // one-way UDP to a .255 from sources of other prefixes: a host too
+    for (let i = 1; i <= 3; i++) agg.add(oneWay(`10.9.${i}.1`, '192.168.8.255', T0 + 30_000 + i));
+    agg.finish();
+    const names = closed[0]!.hosts.map((h) => agg.addresses.name(h.hostId));
+    expect(names).not.toContain('192.168.5.255');
+    expect(names).toEqual(expect.arrayContaining(['192.168.6.255', '192.168.7.255', '192.168.8.255', '192.168.5.1', '192.168.4.2']));
+    expect(agg.stats.broadcastSinks).toBe(1);
+    expect([...agg.broadcastNames]).toEqual(['192.168.5.255']);
+  });
+
   it('drops a record dated a year ahead when the next one is back at the input time; takes a real jump (ours)', () => {
     const year = 365 * 86_400_000;
     const a = make();

@@ -1,6 +1,6 @@
 import type { FlowRecord } from '../flow/record.js';
 import type { CidrSet } from '../util/addr.js';
-import { isNonHost } from '../util/addr.js';
+import { broadcastHostBits, isNonHost, parseIpv4 } from '../util/addr.js';
 import { MAX_FORWARD_JUMP_MS } from '../flow/time-guard.js';
 import { AddressTable, type AddressTableSnapshot } from './intern.js';
 import { PairHistory, type PairHistorySnapshot } from './pair-history.js';
@@ -67,6 +67,8 @@ class HostBucket {
     this.hosts.length = 0;
   }
 }
+/** Broadcast-sink addresses named in a run's summary (the count covers all of them). */
+const BROADCAST_NAMES = 8;
 /** Empty buckets kept for the next windows. */
 const BUCKET_POOL_CAP = 4;
 
@@ -112,9 +114,13 @@ export class WindowAggregator {
   /**
    * `hostsOverCap`: records dropped because they would have added an address past `maxHosts`;
    * `timeOutliers`: records dropped for a corrupt time (more than a day past the input's, alone);
-   * `sketchCapped`: host-windows whose exact sets or entropy counters reached their bounds.
+   * `sketchCapped`: host-windows whose exact sets or entropy counters reached their bounds;
+   * `broadcastSinks`: host-windows of an address that behaved as a subnet's broadcast (isBroadcastSink).
    */
-  readonly stats = { records: 0, late: 0, nonHostDst: 0, windowsClosed: 0, lateVolumeMoved: 0, hostsOverCap: 0, sketchCapped: 0, timeOutliers: 0 };
+  readonly stats = {
+    records: 0, late: 0, nonHostDst: 0, windowsClosed: 0, lateVolumeMoved: 0, hostsOverCap: 0, sketchCapped: 0, timeOutliers: 0,
+    broadcastSinks: 0,
+  };
   /** A record dated more than MAX_FORWARD_JUMP_MS past the latest event time, until the next record comes. */
   private held: FlowRecord | null = null;
   /** Distinct addresses tracked at most (see WindowOptions.maxHosts); may be changed between inputs. */
@@ -289,14 +295,55 @@ export class WindowAggregator {
       this.nextClose = w + 1;
       this.stats.windowsClosed++;
       if (bucket) for (const h of bucket.hosts) if (h.sketchCapped) this.stats.sketchCapped++;
-      const hosts = bucket ? bucket.hosts.slice() : [];
+      const all = bucket ? bucket.hosts.slice() : [];
       if (bucket) { bucket.clear(); if (this.bucketPool.length < BUCKET_POOL_CAP) this.bucketPool.push(bucket); }
+      const hosts = all.filter((h) => !this.isBroadcastSink(h));
+      if (hosts.length < all.length) this.noteBroadcastSinks(all, hosts);
       this.onClose({ start: w * this.W, end: (w + 1) * this.W, hosts });
-      for (const h of hosts) {
+      for (const h of all) {
         h.release();
         if (this.accPool.length < ACC_POOL_CAP) this.accPool.push(h);
       }
       this.pruneRecent(w * this.W);
+    }
+  }
+
+  /**
+   * The window's target behaved as a subnet's directed broadcast: an IPv4 address that sent nothing,
+   * took only non-TCP traffic (TCP is never broadcast), and is the all-ones address of a /8 to /30
+   * prefix that holds at least two of its sources and at least half of them. Its window is no host's,
+   * as multicast is not: a LAN's name-service and discovery broadcasts to x.y.z.255 otherwise look like
+   * a fan-in flood whatever `--internal` says. The sources keep their flows. An address that answers
+   * or sends anything, or whose sources come from elsewhere, stays a host.
+   */
+  private isBroadcastSink(h: HostAcc): boolean {
+    if (h.flowsOut > 0 || h.pktsOut > 0 || h.flowsIn < 2 || h.nontcpIn < h.bytesIn) return false;
+    const a = parseIpv4(this.addresses.name(h.hostId));
+    const k = a < 0 ? 0 : broadcastHostBits(a);
+    if (k === 0) return false;
+    const net = Math.floor(a / 2 ** k);
+    let sources = 0, within = 0;
+    h.forEachSource((peer) => {
+      sources++;
+      const s = parseIpv4(this.addresses.name(peer));
+      if (s >= 0 && Math.floor(s / 2 ** k) === net) within++;
+    });
+    return within >= 2 && 2 * within >= sources;
+  }
+
+  /** Addresses set aside as broadcast sinks (the first BROADCAST_NAMES of them), for the run's summary. */
+  readonly broadcastNames = new Set<string>();
+  /** More addresses were set aside than broadcastNames holds. */
+  moreBroadcastNames = false;
+
+  private noteBroadcastSinks(all: readonly HostAcc[], kept: readonly HostAcc[]): void {
+    this.stats.broadcastSinks += all.length - kept.length;
+    const keep = new Set(kept);
+    for (const h of all) {
+      if (keep.has(h)) continue;
+      const name = this.addresses.name(h.hostId);
+      if (this.broadcastNames.size < BROADCAST_NAMES) this.broadcastNames.add(name);
+      else if (!this.broadcastNames.has(name)) this.moreBroadcastNames = true;
     }
   }
 

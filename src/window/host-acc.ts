@@ -511,6 +511,12 @@ export class HostAcc {
     return peers;
   }
 
+  /** Calls fn with each source peer of this window as responder (those the histogram holds when saturated). */
+  forEachSource(fn: (peer: number) => void): void {
+    if (this.inn) this.inn.counts((c) => c.entSrcAddrs.forEach((peer) => fn(peer)));
+    else if (this.iCount > 0) fn(this.iPeer);
+  }
+
   /** Runs fn on both roles' histograms at once (either absent when the role has no sets). */
   private bothCounts<T>(fn: (o: InitiatorCounts | undefined, i: ResponderCounts | undefined) => T): T {
     const inner = (o: InitiatorCounts | undefined) => (this.inn ? this.inn.counts((i) => fn(o, i)) : fn(o, undefined));
