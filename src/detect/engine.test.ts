@@ -44,9 +44,23 @@ describe('detector engine', () => {
     // 120 hosts of 10.60.4.0/23 (wider than any --internal prefix given) announce themselves every minute
     for (let m = 0; m < 15; m++) for (let h = 0; h < 120; h++) recs.push(udp(`10.60.${4 + (h & 1)}.${1 + (h >> 1)}`, '10.60.5.255', T0 + m * 60_000 + h * 400));
     // the same shape to a host that answers nothing, from outside sources: a flood
-    for (let h = 0; h < 120; h++) recs.push(udp(`198.51.100.${1 + h}`, '10.60.0.9', T0 + 600_000 + h * 300));
+    for (let h = 0; h < 120; h++) recs.push({ ...udp(`198.51.100.${1 + h}`, '10.60.0.9', T0 + 600_000 + h * 300), pkts: 200, bytes: 200 * 229 });
     const open = run(recs).filter((a) => a.state === 'open');
     expect(open.filter((a) => a.host === '10.60.5.255')).toEqual([]);
+    expect(open.map((a) => [a.kind, a.host])).toContainEqual(['fan-in-flood', '10.60.0.9']);
+  });
+
+  it('stays quiet on a syslog collector that 80 devices send to, yet flags a UDP flood of a host by its packets (ours)', () => {
+    const recs: FlowRecord[] = [];
+    const udp = (src: string, dst: string, t: number, pkts: number): FlowRecord => ({
+      start: t, end: t + 50, proto: 17, src, dst, sport: 514, dport: 514, pkts, bytes: 180 * pkts, rpkts: 0, rbytes: 0, flags: 0, rflags: 0, outcome: 'unanswered', exporter: 't',
+    });
+    // one-way syslog: every device a few messages a minute, never answered
+    for (let m = 0; m < 15; m++) for (let h = 0; h < 80; h++) recs.push(udp(`10.70.0.${10 + h}`, '10.60.0.20', T0 + m * 60_000 + h * 600, 3));
+    // 120 outside sources sending 200 packets each in one minute at another host
+    for (let h = 0; h < 120; h++) recs.push(udp(`198.51.100.${1 + h}`, '10.60.0.9', T0 + 600_000 + h * 300, 200));
+    const open = run(recs).filter((a) => a.state === 'open');
+    expect(open.filter((a) => a.host === '10.60.0.20')).toEqual([]);
     expect(open.map((a) => [a.kind, a.host])).toContainEqual(['fan-in-flood', '10.60.0.9']);
   });
 

@@ -17,6 +17,9 @@ export function fanInFlood(ctx: HostContext): Finding | null {
   if (sources < ctx.floors.floodSources || flowsIn === 0) return null;
   const failedShare = Math.max(v[F.failed_in]!, v[F.syn_only_in]!) / flowsIn;
   if (failedShare < ctx.floors.floodFailedShare) return null;
+  // unanswered UDP is the normal state of one-way services (syslog, SNMP traps, flow export): a flood
+  // carried mostly outside TCP must also be one by its packets
+  if (2 * v[F.nontcp_bytes_in]! >= v[F.bytes_in]! && v[F.pkts_in]! < ctx.floors.floodPackets) return null;
   const learned = ctx.model.band(F.distinct_sources, ctx.windowStart, ctx.thresholds.z);
   const b = learned && learned.ready ? learned : priorBand(3, 0.7, ctx.thresholds.z);
   const score = scoreCount(sources, b);

@@ -62,9 +62,14 @@ export interface Floors {
   scanPorts: number;
   scanPeers: number;
   scanFailureRatio: number;
-  /** fan-in-flood: distinct sources and the share of unanswered or SYN-only flows. */
+  /**
+   * fan-in-flood: distinct sources and the share of unanswered or SYN-only flows; and the packets in
+   * one window a flood carried mostly outside TCP needs (one-way UDP services, such as syslog, SNMP
+   * traps or flow export, take many sources that are never answered, at low rates).
+   */
   floodSources: number;
   floodFailedShare: number;
+  floodPackets: number;
   /** unusual-destination: bytes sent to new, rare peers in one window. */
   newPeerBytes: number;
   /** Windows of run history before peer novelty means anything. */
@@ -82,6 +87,7 @@ export const DEFAULT_FLOORS: Floors = {
   scanFailureRatio: 0.6,
   floodSources: 50,
   floodFailedShare: 0.6,
+  floodPackets: 10_000,
   newPeerBytes: 1_000_000,
   historyWindows: 30,
 };

@@ -24,6 +24,7 @@ export const FLOOR_SPECS: Readonly<Record<FloorName, FloorSpec>> = {
   scanPeers: { type: 'count', readers: ['horizontal-scan'] },
   floodSources: { type: 'count', readers: ['fan-in-flood'] },
   floodFailedShare: { type: 'share', readers: ['fan-in-flood'] },
+  floodPackets: { type: 'count', readers: ['fan-in-flood'] },
   newPeerBytes: { type: 'count', readers: ['unusual-destination'] },
   historyWindows: { type: 'count', readers: ['unusual-destination'] },
 };

@@ -25,7 +25,7 @@ const CASES: [file: string, messages: string[]][] = [
   ['two-rules-one-detector.yaml', ['5:15: detector volume-surge already has a rule at test/rules/bad/two-rules-one-detector.yaml:3:15']],
   ['negative-floor.yaml', ['5:14: bytes must be a whole number >= 0, got -1']],
   ['ratio-below-one.yaml', ['5:19: surgeRatio must be a ratio >= 1, got 0.5']],
-  ['floor-not-read.yaml', ["5:7: floor 'scanPorts' is not read by fan-in-flood (it reads floodSources, floodFailedShare)"]],
+  ['floor-not-read.yaml', ["5:7: floor 'scanPorts' is not read by fan-in-flood (it reads floodSources, floodFailedShare, floodPackets)"]],
   ['shared-floor-conflict.yaml', ['7:27: scanFailed is 20 at test/rules/bad/shared-floor-conflict.yaml:4:27; horizontal-scan and vertical-scan share it, so both must agree']],
   ['severity-order.yaml', ['2:3: severity limits must rise: medium < high < critical, got 6, 30, 25']],
   ['port-out-of-range.yaml', ['2:16: port out of range: 70000 (expected 0 to 65535)']],
