@@ -11,7 +11,7 @@ export const enum St {
   OpenedWithSyn = 2,
   /** TCP: a SYN-ACK came back from the responder. */
   SynAckBack = 4,
-  /** TCP: the initiator sent an ACK after the SYN-ACK: the handshake completed. */
+  /** TCP: the initiator sent an ACK after the SYN-ACK (seen, or implied by the ACK): the handshake completed. */
   Completed = 8,
   /** TCP: the responder sent RST before any SYN-ACK. */
   ResetBack = 16,
@@ -36,6 +36,9 @@ export function tcpStep(state: number, dir: number, flags: number): number {
   if (dir === 1 && (flags & (SYN | ACK)) === (SYN | ACK)) state |= St.SynAckBack;
   else if (dir === 1 && (flags & RST) !== 0 && (state & St.SynAckBack) === 0) state |= St.ResetBack;
   else if (dir === 0 && (state & St.SynAckBack) !== 0 && (flags & ACK) !== 0) state |= St.Completed;
+  // an initiator acknowledges only what it received (RFC 9293 section 3.5): a plain ACK after its SYN
+  // means a SYN-ACK came back, even when the capture missed it (a tap that sees one direction, a drop)
+  else if (dir === 0 && (state & St.OpenedWithSyn) !== 0 && (flags & (SYN | ACK | RST)) === ACK) state |= St.Completed;
   if ((flags & FIN) !== 0) state |= dir === 0 ? St.FinForward : St.FinReverse;
   return state;
 }

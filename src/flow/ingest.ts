@@ -77,6 +77,8 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
       tunnelsOpened: decoder.stats.decapsulated,
       distinctFlows: ts.flowsCreated,
       evictedFlows: ts.evicted,
+      tcpCompleted: ts.tcpCompleted,
+      tcpCompletedUnseen: ts.tcpCompletedUnseen,
       droppedByCapture: cap.droppedByCapture,
       untimed: cap.untimed ? 1 : 0,
       exportLikeDatagrams: exportLike,

@@ -12,7 +12,8 @@
  *   Echo replies are folded into their request's flow (dport of the request type).
  *   ICMP error messages form their own flow (error sender -> original sender); the flow they quote only
  *   gets `outcome` = `rejected`.
- * - `outcome`, TCP: `established` (SYN, SYN-ACK back, then ACK or data from the initiator),
+ * - `outcome`, TCP: `established` (SYN, SYN-ACK back, then ACK or data from the initiator; a plain ACK
+ *   after the SYN implies the SYN-ACK when the capture missed it),
  *   `rejected` (SYN answered by RST, or an ICMP unreachable quoting it), `unanswered` (SYN(s) with nothing
  *   back), `partial` (first packet seen was not a SYN, or SYN and SYN-ACK with no completion yet).
  *   UDP and other protocols: `established` when both directions carried packets, `rejected` after an

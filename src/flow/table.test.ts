@@ -66,6 +66,22 @@ describe('FlowTable: initiator, direction counters, TCP outcomes (record.ts conv
     expect([by.get(40004)!.src, by.get(40004)!.sport, by.get(40004)!.outcome]).toEqual([S, 80, 'partial']);
   });
 
+  it('an ACK after its SYN completes the handshake when the SYN-ACK was not seen (RFC 9293 section 3.5: an ACK acknowledges what was received); counted as one-way', () => {
+    const { out, table, send } = harness();
+    // one direction of a tap: SYN, ACK, data, FIN from the client, nothing back
+    send(t4(C, S, 40010, 443, SYN), T0);
+    send(t4(C, S, 40010, 443, ACK), T0 + 20);
+    send(t4(C, S, 40010, 443, PSH | ACK, 300), T0 + 21);
+    // a SYN then a RST from the initiator is no answer seen (a half-open probe torn down)
+    send(t4(C, S, 40011, 443, SYN), T0);
+    send(t4(C, S, 40011, 443, RST), T0 + 5);
+    table.flush();
+    const by = new Map(out.map((r) => [r.sport, r]));
+    expect(by.get(40010)!.outcome).toBe('established');
+    expect(by.get(40011)!.outcome).toBe('unanswered');
+    expect([table.stats.tcpCompleted, table.stats.tcpCompletedUnseen]).toEqual([1, 1]);
+  });
+
   it('UDP: the first sender is the initiator; both directions make it established', () => {
     const { out, table, send } = harness();
     send(u4(C, S, 53001, 53, 30), T0);

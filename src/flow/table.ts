@@ -47,6 +47,12 @@ export interface FlowTableStats {
   evicted: number;
   /** Flows held now. */
   active: number;
+  /**
+   * TCP connections whose handshake completed, and those of them with no packet seen back from the
+   * responder (completion implied by the initiator's ACK alone): many of those mean a one-way capture.
+   */
+  tcpCompleted: number;
+  tcpCompletedUnseen: number;
 }
 
 /**
@@ -57,7 +63,7 @@ export interface FlowTableStats {
  * a window boundary, an active or idle timeout, a TCP close, an eviction, or `flush`.
  */
 export class FlowTable {
-  readonly stats: FlowTableStats = { packets: 0, bytes: 0, flowsCreated: 0, records: 0, evicted: 0, active: 0 };
+  readonly stats: FlowTableStats = { packets: 0, bytes: 0, flowsCreated: 0, records: 0, evicted: 0, active: 0, tcpCompleted: 0, tcpCompletedUnseen: 0 };
 
   private readonly windowMs: number;
   private readonly idleMs: number;
@@ -416,6 +422,11 @@ export class FlowTable {
   /** Emits the pending update (if any) and frees the flow. */
   private remove(f: number): void {
     if (this.pending(f)) this.emit(f);
+    const meta = this.u[f * W + W_META]!;
+    if (((meta >>> 8) & 0xff) === 6 && ((meta >>> STATE_SHIFT) & St.Completed) !== 0) {
+      this.stats.tcpCompleted++;
+      if (((meta >>> STATE_SHIFT) & St.ReverseSeen) === 0) this.stats.tcpCompletedUnseen++;
+    }
     this.deleteIndex(f);
     this.u[f * W + W_META] = 0;
     this.free[this.freeTop++] = f;

@@ -12,6 +12,11 @@ describe('notes under an input summary (ours)', () => {
     expect(inputNotes(summary(10, { exportLikeDatagrams: 6 }))[0]).toMatch(/--input-format export-capture/);
     expect(inputNotes(summary(10, { exportLikeDatagrams: 4 }))).toEqual([]);
   });
+  it('a capture whose completed TCP connections often had no packet back is said to be one-way', () => {
+    expect(inputNotes(summary(10, { tcpCompleted: 400, tcpCompletedUnseen: 300 }))[0]).toMatch(/^note: 300 of 400 completed TCP connections had no packet back: the capture may hold one direction only/);
+    expect(inputNotes(summary(10, { tcpCompleted: 400, tcpCompletedUnseen: 30 }))).toEqual([]);
+    expect(inputNotes(summary(10, { tcpCompleted: 12, tcpCompletedUnseen: 12 }))).toEqual([]);
+  });
   it('announced sampling is said, with the counts left as exported', () => {
     expect(inputNotes(summary(10, { samplingInterval: 1000 }))).toEqual(['note: the exporter samples 1 in 1000 packets; packets and bytes are as exported, not scaled']);
     expect(inputNotes(summary(10, { samplingInterval: 1 }))).toEqual([]);

@@ -10,11 +10,26 @@ export function looksLikeExportCapture(s: IngestSummary): boolean {
   return n > 0 && n * 2 >= s.packets;
 }
 
+/**
+ * Completed TCP connections without any packet back (the initiator's ACK implied the answer): in a
+ * capture of both directions only drops make them, so 20 or more and a tenth of all completed ones
+ * mean a tap or SPAN port that sees one direction of some traffic (ours).
+ */
+export function looksOneWay(s: IngestSummary): boolean {
+  const done = s.counters['tcpCompleted'] ?? 0, unseen = s.counters['tcpCompletedUnseen'] ?? 0;
+  return unseen >= 20 && unseen * 10 >= done;
+}
+
 /** What the reader of a summary should know beyond its counts: one line each, without the file name. */
 export function inputNotes(s: IngestSummary): string[] {
   const notes: string[] = [];
   if (s.counters['readAsExports']) notes.push('note: most packets are flow-export datagrams, so the flows they carry were read; --input-format pcap reads the packets themselves');
   if (looksLikeExportCapture(s)) notes.push('hint: most packets are IPFIX or NetFlow export datagrams; --input-format export-capture reads the flows they carry');
+  if (looksOneWay(s)) {
+    notes.push(`note: ${s.counters['tcpCompletedUnseen']} of ${s.counters['tcpCompleted']} completed TCP connections had no packet back: `
+      + 'the capture may hold one direction only (asymmetric routing, a one-way tap); answers are inferred from the initiators\' ACKs, '
+      + 'and unanswered attempts (scans, floods) are less sure');
+  }
   const n = s.counters['samplingInterval'] ?? 0;
   if (n > 1) notes.push(`note: the exporter samples 1 in ${n} packets; packets and bytes are as exported, not scaled`);
   return notes;
