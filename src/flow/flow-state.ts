@@ -23,6 +23,8 @@ export const enum St {
   Closing = 256,
   /** The responder has sent at least one packet. */
   ReverseSeen = 512,
+  /** An ICMP time exceeded quoted this flow: a probe whose hop limit ran out on the way (traceroute). */
+  TtlExpired = 1024,
 }
 
 const FIN = 0x01, SYN = 0x02, RST = 0x04, ACK = 0x10;
@@ -56,10 +58,12 @@ export function outcomeOf(proto: number, state: number): Outcome {
     if ((state & St.IcmpRejected) !== 0) return 'rejected';
     if ((state & St.OpenedWithSyn) === 0) return 'partial';
     if ((state & St.ResetBack) !== 0) return 'rejected';
-    if ((state & (St.SynAckBack | St.ReverseSeen)) !== 0) return 'partial';
+    if ((state & (St.SynAckBack | St.ReverseSeen | St.TtlExpired)) !== 0) return 'partial';
     return 'unanswered';
   }
   if ((state & St.ReverseSeen) !== 0) return 'established';
   if ((state & St.IcmpRejected) !== 0) return 'rejected';
+  // it never reached its target: neither an answer nor a failure there
+  if ((state & St.TtlExpired) !== 0) return 'partial';
   return 'unanswered';
 }

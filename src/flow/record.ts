@@ -10,8 +10,9 @@
  *   octetDeltaCount counts them, never the captured length.
  * - ICMP/ICMPv6: `sport` = 0, `dport` = type * 256 + code (as exporters carry icmpTypeCode).
  *   Echo replies are folded into their request's flow (dport of the request type).
- *   ICMP error messages form their own flow (error sender -> original sender); the flow they quote only
- *   gets `outcome` = `rejected`.
+ *   ICMP error messages form their own flow (error sender -> original sender); the flow an unreachable
+ *   quotes gets `outcome` = `rejected`, the one a time exceeded quotes (a probe that expired on the way,
+ *   as traceroute sends) `partial`, unless it was answered.
  * - `outcome`, TCP: `established` (SYN, SYN-ACK back, then ACK or data from the initiator; a plain ACK
  *   after the SYN implies the SYN-ACK when the capture missed it),
  *   `rejected` (SYN answered by RST, or an ICMP unreachable quoting it), `unanswered` (SYN(s) with nothing

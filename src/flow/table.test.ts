@@ -107,6 +107,19 @@ describe('FlowTable: initiator, direction counters, TCP outcomes (record.ts conv
     expect([icmpFlow.src, icmpFlow.dst, icmpFlow.sport, icmpFlow.dport, icmpFlow.outcome]).toEqual([S, C, 0, 771, 'n/a']);
   });
 
+  it('ICMP time exceeded makes the quoted probe partial, neither answered nor failed (RFC 792 type 11, RFC 4443 section 3.3)', () => {
+    const { out, table, send } = harness();
+    const probe = u4(C, S, 40100, 33434, 12);
+    send(probe, T0);
+    send(ipv4({ src: '203.0.113.1', dst: C, proto: 1, payload: icmp(11, 0, probe.subarray(0, 28)) }), T0 + 1);
+    const syn = t4(C, S, 40101, 80, SYN);
+    send(syn, T0 + 2);
+    send(ipv4({ src: '203.0.113.2', dst: C, proto: 1, payload: icmp(11, 0, syn.subarray(0, 28)) }), T0 + 3);
+    table.flush();
+    expect(out.filter((r) => r.proto !== 1).map((r) => [r.proto, r.outcome])).toEqual([[17, 'partial'], [6, 'partial']]);
+    expect(out.filter((r) => r.proto === 1).map((r) => [r.src, r.dport, r.outcome])).toEqual([['203.0.113.1', 11 * 256, 'n/a'], ['203.0.113.2', 11 * 256, 'n/a']]);
+  });
+
   it('ICMPv6 port unreachable rejects the quoted IPv6 UDP flow; addresses in RFC 5952 form', () => {
     const { out, table, send } = harness();
     const a = '2001:db8:60:0:0:0:0:5', b = '2001:db8:0:0:1:0:0:99';

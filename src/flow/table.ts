@@ -147,7 +147,10 @@ export class FlowTable {
         sport = ((proto === 1 ? 8 : 128) << 8) | v.icmpCode;
         dport = 0;
       } else if (v.icmpUnreachable && v.quoted.valid) {
-        this.markRejected(v.quoted);
+        this.markQuoted(v.quoted, St.IcmpRejected);
+      } else if (((proto === 1 && v.icmpType === 11) || (proto === 58 && v.icmpType === 3)) && v.quoted.valid) {
+        // time exceeded (RFC 792, RFC 4443 section 3.3): the quoted probe expired on the way
+        this.markQuoted(v.quoted, St.TtlExpired);
       }
     }
     const s = this.keyS, d = this.keyD;
@@ -316,8 +319,8 @@ export class FlowTable {
     if (at < this.nextDueAt) this.nextDueAt = at;
   }
 
-  /** An ICMP unreachable quoted this tuple: its flow (if held) is rejected. */
-  private markRejected(q: QuotedTuple): void {
+  /** An ICMP error quoted this tuple: its flow (if held) gets the state bit (rejected, or expired on the way). */
+  private markQuoted(q: QuotedTuple, bit: number): void {
     const s = this.keyS, d = this.keyD;
     if (q.family === 4) {
       s[0] = q.src4;
@@ -327,7 +330,7 @@ export class FlowTable {
       d.set(q.dst6);
     }
     const f = this.find(flowHash(q.family, q.proto, s, q.sport, d, q.dport), q.family, q.proto, s, q.sport, d, q.dport);
-    if (f >= 0) this.u[f * W + W_META] = (this.u[f * W + W_META]! | (St.IcmpRejected << STATE_SHIFT)) >>> 0;
+    if (f >= 0) this.u[f * W + W_META] = (this.u[f * W + W_META]! | (bit << STATE_SHIFT)) >>> 0;
   }
 
   /** Flow id for the key, or -1; sets `this.dir` (0 when the sender is the flow's initiator). */
