@@ -1,3 +1,4 @@
+import { inTimeOrder } from '../ingest/first-time.js';
 import { inputNotes } from '../ingest/hints.js';
 import { ingestInput } from '../ingest/index.js';
 import { ReadingThread } from '../ingest/threaded.js';
@@ -35,10 +36,15 @@ export interface RunInputsResult {
 }
 
 /**
- * Reads every INPUT in turn into `sink`. Problems are printed as one line each on stderr (bounded);
- * an input that cannot be opened or recognised is reported and the others still run.
+ * Reads every INPUT in turn into `sink`, captures in the order of their first packets (said on stderr
+ * when that is not the order given). Problems are printed as one line each on stderr (bounded); an
+ * input that cannot be opened or recognised is reported and the others still run.
  */
-export async function runInputs(inputs: readonly string[], sink: FlowSink, o: RunInputsOptions): Promise<RunInputsResult> {
+export async function runInputs(given: readonly string[], sink: FlowSink, o: RunInputsOptions): Promise<RunInputsResult> {
+  const inputs = await inTimeOrder(given);
+  if (!o.quiet && inputs.some((n, i) => n !== given[i])) {
+    process.stderr.write(`tidewatch: reading the captures in the order of their first packets: ${escapeControls(inputs.join(', '))}\n`);
+  }
   const summaries: IngestSummary[] = [];
   const unreadable: string[] = [];
   let printed = 0;
