@@ -32,7 +32,7 @@ from decimal import Decimal
 
 import dpkt
 from scapy.layers.inet import ICMP, IP, TCP, UDP, IPOption_NOP, IPOption_RR, fragment
-from scapy.layers.inet6 import (ICMPv6DestUnreach, ICMPv6EchoReply, ICMPv6EchoRequest, IPv6,
+from scapy.layers.inet6 import (ICMPv6DestUnreach, ICMPv6EchoReply, ICMPv6EchoRequest, ICMPv6TimeExceeded, IPv6,
                                 IPv6ExtHdrDestOpt, IPv6ExtHdrFragment, IPv6ExtHdrHopByHop,
                                 IPv6ExtHdrRouting)
 from scapy.layers.l2 import ARP, LLC, STP, CookedLinux, CookedLinuxV2, Dot1AD, Dot1Q, Dot3, Ether, Loopback
@@ -267,6 +267,33 @@ def golden_icmp6_unreachable():
     filtered = IPv6(src='2001:db8:40::1', dst='2001:db8:40::a') / ICMPv6DestUnreach(code=1) / Raw(bytes(syn))
     return [(100_000, frame(lt, probe)), (100_700, frame(lt, err, outbound=True)),
             (200_000, frame(lt, syn)), (200_900, frame(lt, filtered, outbound=True))]
+
+
+def golden_icmp_time_exceeded():
+    """Traceroute probes whose hop limit ran out: a UDP probe and a TCP SYN answered by routers with
+    ICMP time exceeded (11/0), an IPv6 UDP probe with ICMPv6 time exceeded (3/0): each probe is partial,
+    each error its own flow (dport 2816, ICMPv6 768)."""
+    lt = LT_ETHERNET
+    probe = udp('192.0.2.50', '198.51.100.50', 47001, 33434, b'trace' * 4, ip_id=50)
+    hop = IP(src='203.0.113.5', dst='192.0.2.50', id=51) / ICMP(type=11, code=0) / Raw(quote_v4(probe))
+    syn = tcp('192.0.2.50', '198.51.100.50', 47002, 80, 'S', 5000)
+    hop2 = IP(src='203.0.113.6', dst='192.0.2.50', id=52) / ICMP(type=11, code=0) / Raw(quote_v4(syn))
+    probe6 = udp('2001:db8:50::a', '2001:db8:50::b', 47101, 33435, b'trace6' * 4, ipv6=True)
+    hop6 = IPv6(src='2001:db8:50::1', dst='2001:db8:50::a') / ICMPv6TimeExceeded(code=0) / Raw(bytes(probe6))
+    return [(100_000, frame(lt, probe)), (100_400, frame(lt, hop, outbound=True)),
+            (200_000, frame(lt, syn)), (200_500, frame(lt, hop2, outbound=True)),
+            (300_000, frame(lt, probe6)), (300_600, frame(lt, hop6, outbound=True))]
+
+
+def golden_one_way_tcp():
+    """One direction of a tap: a client's SYN, ACK, data and FIN with nothing seen back (established:
+    its ACK implies the SYN-ACK), and a SYN alone (unanswered)."""
+    lt = LT_ETHERNET
+    c, s = '192.0.2.60', '198.51.100.60'
+    pkts = [tcp(c, s, 48001, 443, 'S', 6000), tcp(c, s, 48001, 443, 'A', 6001, 9001),
+            tcp(c, s, 48001, 443, 'PA', 6001, 9001, b'G' * 120), tcp(c, s, 48001, 443, 'FA', 6121, 9001),
+            tcp(c, s, 48002, 443, 'S', 7000)]
+    return [(100_000 + 1_000 * i, frame(lt, p)) for i, p in enumerate(pkts)]
 
 
 def golden_ipv6_addresses():
@@ -661,6 +688,7 @@ def ip_layer(linktype, buf):
 
 ICMP_ECHO_REPLY_TO_REQUEST = {(1, 0): 8, (58, 129): 128}
 ICMP_UNREACHABLE = {1: 3, 58: 1}
+ICMP_TIME_EXCEEDED = {1: 11, 58: 3}
 
 
 def addr(packed):
@@ -680,7 +708,7 @@ class Flow:
         self.pkts = self.bytes = self.rpkts = self.rbytes = self.flags = self.rflags = 0
         self.vlan = vlan
         self.opened_with_syn = None  # TCP: was the first packet a SYN without ACK?
-        self.syn_ack_back = self.completed = self.reset_back = self.icmp_rejected = False
+        self.syn_ack_back = self.completed = self.reset_back = self.icmp_rejected = self.ttl_expired = False
 
     def add(self, forward, ts, ip_len, tcp_flags):
         self.end = ts
@@ -702,6 +730,9 @@ class Flow:
             self.reset_back = True
         elif forward and self.syn_ack_back and tcp_flags & 0x10:
             self.completed = True
+        elif forward and self.opened_with_syn and tcp_flags & 0x16 == 0x10:
+            # an ACK acknowledges what came back (RFC 9293 section 3.5): the SYN-ACK was missed
+            self.completed = True
 
     def outcome(self):
         if self.proto in (1, 58):
@@ -713,10 +744,14 @@ class Flow:
                 return 'partial'
             if self.reset_back:
                 return 'rejected'
+            if self.completed:
+                return 'established'
             if self.syn_ack_back:
-                return 'established' if self.completed else 'partial'
-            return 'unanswered' if self.rpkts == 0 else 'partial'
-        return 'established' if self.rpkts > 0 else 'unanswered'
+                return 'partial'
+            return 'partial' if self.rpkts or self.ttl_expired else 'unanswered'
+        if self.rpkts > 0:
+            return 'established'
+        return 'partial' if self.ttl_expired else 'unanswered'
 
     def record(self, exporter):
         rec = {
@@ -781,14 +816,16 @@ class FlowTable:
             self.count(ts, proto, dst, src, 0, request * 256 + msg.code, ip_len, 0, vlan, reverse=True)
             return
         self.count(ts, proto, src, dst, 0, msg.type * 256 + msg.code, ip_len, 0, vlan)
-        if msg.type == ICMP_UNREACHABLE[proto]:
-            quoted = msg.data.data  # Unreach -> quoted IP / IPv6 header
+        if msg.type in (ICMP_UNREACHABLE[proto], ICMP_TIME_EXCEEDED[proto]):
+            quoted = msg.data.data  # Unreach / TimeExceed -> quoted IP / IPv6 header
             # RFC 792 guarantees only 8 octets of the quoted transport header, too few for dpkt to
             # parse TCP; the ports are its first 4 octets either way.
             sport, dport = struct.unpack('>HH', bytes(quoted.data)[:4])
             flow = self.flows.get(endpoint_key(quoted.p, addr(quoted.src), sport, addr(quoted.dst), dport))
-            if flow is not None:
+            if flow is not None and msg.type == ICMP_UNREACHABLE[proto]:
                 flow.icmp_rejected = True
+            elif flow is not None:
+                flow.ttl_expired = True
 
     def count(self, ts, proto, src, dst, sport, dport, ip_len, tcp_flags, vlan, reverse=False):
         """reverse: the packet travels dst -> src of the flow named (src, sport, dst, dport)."""
@@ -866,6 +903,14 @@ GOLDENS = [
      'UDP probe answered by ICMPv6 port unreachable (1/4): probe rejected, error flow dport 260; a TCP '
      'SYN answered by a router with 1/1: rejected, error flow dport 257',
      lambda p: write_pcap(p, LT_ETHERNET, golden_icmp6_unreachable())),
+    ('icmp-time-exceeded.pcap', 'pcap LE µs, linktype 1',
+     'traceroute probes answered by routers with ICMP time exceeded (11/0) and ICMPv6 time exceeded (3/0): '
+     'UDP and TCP probes partial, error flows dport 2816 and 768',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_icmp_time_exceeded())),
+    ('one-way-tcp.pcap', 'pcap LE µs, linktype 1',
+     'one direction of a tap: SYN, ACK, data, FIN from a client, nothing back (established, the ACK implies '
+     'the SYN-ACK); a SYN alone (unanswered)',
+     lambda p: write_pcap(p, LT_ETHERNET, golden_one_way_tcp())),
     ('ipv6-addresses.pcap', 'pcap LE µs, linktype 1',
      'RFC 5952 text forms (2001:db8::1:0:0:1, 2001:db8:0:1::1, no single-field ::, lower case) and '
      'IPv4-mapped IPv6 carried as IPv4',
