@@ -64,6 +64,19 @@ describe('detector engine', () => {
     expect(open.map((a) => [a.kind, a.host])).toContainEqual(['fan-in-flood', '10.60.0.9']);
   });
 
+  it('flags a ping sweep of 300 addresses, most silent, as a horizontal scan; a monitor whose pings are answered stays quiet (ours)', () => {
+    const echo = (src: string, dst: string, t: number, answered: boolean): FlowRecord => ({
+      start: t, end: t + 1, proto: 1, src, dst, sport: 0, dport: 8 * 256, pkts: 1, bytes: 84, rpkts: answered ? 1 : 0, rbytes: answered ? 84 : 0,
+      flags: 0, rflags: 0, outcome: answered ? 'established' : 'unanswered', exporter: 't',
+    });
+    const recs: FlowRecord[] = [];
+    for (let i = 0; i < 300; i++) recs.push(echo('192.0.2.68', `10.60.${2 + (i >> 8)}.${i & 255}`, T0 + i * 150, i % 10 === 0));
+    for (let m = 0; m < 3; m++) for (let i = 0; i < 100; i++) recs.push(echo('10.60.0.3', `10.60.1.${i}`, T0 + m * 60_000 + i * 200, true));
+    const open = run(recs).filter((a) => a.state === 'open');
+    expect(open.map((a) => [a.kind, a.host])).toContainEqual(['horizontal-scan', '192.0.2.68']);
+    expect(open.filter((a) => a.host === '10.60.0.3')).toEqual([]);
+  });
+
   it('stays quiet on a host whose attempts succeed (no scan without failures)', () => {
     const recs: FlowRecord[] = [];
     for (let i = 0; i < 300; i++) {

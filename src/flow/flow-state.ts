@@ -50,8 +50,15 @@ export function tcpEnded(state: number, flags: number): boolean {
   return (flags & RST) !== 0 || (state & (St.FinForward | St.FinReverse)) === (St.FinForward | St.FinReverse);
 }
 
-export function outcomeOf(proto: number, state: number): Outcome {
-  if (proto === 1 || proto === 58) return 'n/a';
+/**
+ * `dport` is the flow's destination port, for ICMP its type * 256 + code: an echo request's flow holds
+ * its replies (record.ts), so it was answered or not; other ICMP flows have no outcome.
+ */
+export function outcomeOf(proto: number, state: number, dport: number): Outcome {
+  if (proto === 1 || proto === 58) {
+    if (dport >> 8 !== (proto === 1 ? 8 : 128)) return 'n/a';
+    return (state & St.ReverseSeen) !== 0 ? 'established' : 'unanswered';
+  }
   if (proto === 6) {
     // an established connection stays established in later updates, whatever comes after
     if ((state & (St.OpenedWithSyn | St.Completed)) === (St.OpenedWithSyn | St.Completed)) return 'established';

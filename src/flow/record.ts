@@ -18,7 +18,8 @@
  *   `rejected` (SYN answered by RST, or an ICMP unreachable quoting it), `unanswered` (SYN(s) with nothing
  *   back), `partial` (first packet seen was not a SYN, or SYN and SYN-ACK with no completion yet).
  *   UDP and other protocols: `established` when both directions carried packets, `rejected` after an
- *   ICMP unreachable quoting it, `unanswered` when only the initiator sent. ICMP flows: `n/a`.
+ *   ICMP unreachable quoting it, `unanswered` when only the initiator sent. ICMP echo requests (their
+ *   flow holds the replies): `established` when answered, else `unanswered`; other ICMP flows: `n/a`.
  * - `exporter`: for captures the input's base name (`stdin` for `-`); for flow exports the exporter
  *   address (`ADDR:PORT` on the network) or the file's base name, with `/ODID` for IPFIX/v9 domains.
  * - `vlan`: outermost 802.1Q VID when known, otherwise absent.

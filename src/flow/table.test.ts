@@ -132,15 +132,19 @@ describe('FlowTable: initiator, direction counters, TCP outcomes (record.ts conv
     expect(out.find((r) => r.proto === 58)!.dport).toBe(0x0104);
   });
 
-  it('an echo reply is folded into its request flow, also when the request was not seen', () => {
+  it('an echo reply is folded into its request flow, also when the request was not seen; the request is answered or not (RFC 792 types 8 and 0)', () => {
     const { out, table, send } = harness();
     send(ipv4({ src: C, dst: S, proto: 1, payload: icmp(8, 0, new Uint8Array(56)) }), T0);
     send(ipv4({ src: S, dst: C, proto: 1, payload: icmp(0, 0, new Uint8Array(56)) }), T0 + 1);
     send(ipv4({ src: S, dst: '10.60.1.6', proto: 1, payload: icmp(0, 0, new Uint8Array(56)) }), T0 + 2);
+    send(ipv4({ src: C, dst: '198.51.100.8', proto: 1, payload: icmp(8, 0, new Uint8Array(56)) }), T0 + 3);
+    send(ipv4({ src: C, dst: '198.51.100.9', proto: 1, payload: icmp(13, 0, new Uint8Array(12)) }), T0 + 4);
     table.flush();
     expect(out.map((r) => [r.src, r.dst, r.sport, r.dport, r.pkts, r.rpkts, r.outcome])).toEqual([
-      [C, S, 0, 0x0800, 1, 1, 'n/a'],
-      ['10.60.1.6', S, 0, 0x0800, 0, 1, 'n/a'],
+      [C, S, 0, 0x0800, 1, 1, 'established'],
+      ['10.60.1.6', S, 0, 0x0800, 0, 1, 'established'],
+      [C, '198.51.100.8', 0, 0x0800, 1, 0, 'unanswered'],
+      [C, '198.51.100.9', 0, 13 * 256, 1, 0, 'n/a'],
     ]);
   });
 

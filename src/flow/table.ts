@@ -455,7 +455,7 @@ export class FlowTable {
       rbytes: dd[p + D_OCTETS + 1]!,
       flags: (vf >>> 13) & 0xff,
       rflags: (vf >>> 21) & 0xff,
-      outcome: outcomeOf(proto, meta >>> STATE_SHIFT),
+      outcome: outcomeOf(proto, meta >>> STATE_SHIFT, ports & 0xffff),
       exporter: this.exporter,
     };
     if ((vf & VLAN_MASK) > 0) rec.vlan = (vf & VLAN_MASK) - 1;

@@ -614,11 +614,14 @@ function sampleSize(data: Float64Array, slot: number): number {
   return data[slot * SAMPLE_FIELDS + 7]! + data[slot * SAMPLE_FIELDS + 9]!;
 }
 
-/** A connection attempt with a known outcome (METHODS 2.4: partial flows do not count in ratios). */
+/**
+ * A connection attempt with a known outcome (METHODS 2.4: partial flows do not count in ratios): TCP
+ * with its SYN, UDP, and an ICMP echo request, whose flow holds its replies (a ping sweep's probes).
+ */
 export function isAttempt(r: FlowRecord): boolean {
   if (r.outcome === 'partial' || r.outcome === 'n/a') return false;
   if (r.proto === 6) return (r.flags & 0x02) !== 0; // a later update of a long flow carries no SYN
-  return r.proto === 17;
+  return r.proto === 17 || (r.proto === 1 && r.dport >> 8 === 8) || (r.proto === 58 && r.dport >> 8 === 128);
 }
 
 /** ICMP / ICMPv6 destination unreachable (RFC 792 type 3, RFC 4443 type 1); dport = type*256+code. */

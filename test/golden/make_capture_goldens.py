@@ -736,7 +736,10 @@ class Flow:
 
     def outcome(self):
         if self.proto in (1, 58):
-            return 'n/a'
+            # an echo request's flow holds its replies: answered or not; other ICMP flows have none
+            if self.dport >> 8 != ICMP_ECHO_REPLY_TO_REQUEST[(self.proto, 0 if self.proto == 1 else 129)]:
+                return 'n/a'
+            return 'established' if self.rpkts > 0 else 'unanswered'
         if self.icmp_rejected:
             return 'rejected'
         if self.proto == 6:
