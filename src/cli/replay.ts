@@ -56,12 +56,25 @@ export function register(program: Command): void {
         + `${broadcastNote(sensor.aggregator)}; `
         + `alerts ${output.total}${kinds ? ` (${kinds})` : ''}; suppressed by budget ${sensor.tracker.counters.suppressedByBudget}\n`);
       process.stderr.write(`${formatCapCounts(sensorCapCounts(sensor, inputCapCounts(summaries)))}\n`);
+      const outside = noInsideNote(sensor);
+      if (outside) process.stderr.write(`${outside}\n`);
       if (state) process.stderr.write(`${state.summary()}\n`);
     }
     if (unreadable.length === inputs.length) throw inputError(`no readable input (${unreadable.join(', ')})`);
     if (unreadable.length > 0) process.exitCode = EXIT_INPUT;
     else if (raw.failOnAlert && output.total > 0) process.exitCode = EXIT_ALERTS;
   });
+}
+
+/**
+ * Addresses came and none was inside: unusual-destination and the inside/outside split need the
+ * watched network's prefixes (a site numbered from public space, say).
+ */
+function noInsideNote(sensor: Sensor): string | null {
+  const agg = sensor.aggregator;
+  if (agg.insideHosts > 0 || agg.addresses.size === 0) return null;
+  return `note: none of the ${agg.addresses.size} addresses is inside ${sensor.opts.internal.join(',')}; `
+    + 'pass --internal with the watched network\'s prefixes (unusual-destination looks at inside hosts only)';
 }
 
 /** `, subnet broadcasts set aside N (ADDR, ...)` when the window stage found any (aggregator.isBroadcastSink). */

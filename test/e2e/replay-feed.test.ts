@@ -1,4 +1,4 @@
-import { execFileSync } from 'node:child_process';
+import { execFileSync, spawnSync } from 'node:child_process';
 import { readFileSync } from 'node:fs';
 import { Ajv } from 'ajv';
 import fc from 'fast-check';
@@ -29,6 +29,14 @@ describe('tidewatch replay feed', () => {
       expect(validate(a), `${JSON.stringify(validate.errors)} in ${line.slice(0, 200)}`).toBe(true);
       expect(Object.keys(a)).toEqual([...ALERT_KEYS]);
     }
+  });
+});
+
+describe('tidewatch replay summary', () => {
+  it('says when no address is inside --internal, and is silent about it otherwise (ours)', () => {
+    const run = (internal: string) => spawnSync('node', [cli, 'replay', capture, '--internal', internal], { encoding: 'utf8' }).stderr;
+    expect(run('100.64.0.0/10')).toMatch(/note: none of the \d+ addresses is inside 100\.64\.0\.0\/10; pass --internal/);
+    expect(run(truth.inside.join(','))).not.toMatch(/none of the/);
   });
 });
 
