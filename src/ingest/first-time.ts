@@ -5,6 +5,9 @@ import { sniffFormat } from './sniff.js';
 
 /** Leading octets read to find a capture's first packet (its file header and first blocks). */
 const PEEK_BYTES = 256 * 1024;
+/** Of a gzipped file, the compressed octets inflated, and the most they may inflate to. */
+const GZIP_PEEK_BYTES = 64 * 1024;
+const INFLATED_BYTES = 16 * 1024 * 1024;
 
 /**
  * The event time (epoch ms) of a capture's first packet (pcap, pcapng, or either gzipped), from its
@@ -22,8 +25,10 @@ export async function firstPacketTime(name: string): Promise<number | null> {
     } finally {
       await fh.close();
     }
-    // a gzip prefix inflates as far as it goes (sync flush: no error at its cut end)
-    if (head.length >= 2 && head[0] === 0x1f && head[1] === 0x8b) head = gunzipSync(head, { finishFlush: constants.Z_SYNC_FLUSH });
+    // a gzip prefix inflates as far as it goes (sync flush: no error at its cut end), within bounds
+    if (head.length >= 2 && head[0] === 0x1f && head[1] === 0x8b) {
+      head = gunzipSync(head.subarray(0, GZIP_PEEK_BYTES), { finishFlush: constants.Z_SYNC_FLUSH, maxOutputLength: INFLATED_BYTES });
+    }
     const format = sniffFormat(head.subarray(0, 64));
     if (format !== 'pcap' && format !== 'pcapng') return null;
     let first: number | null = null;
