@@ -57,7 +57,7 @@ export function tcpEnded(state: number, flags: number): boolean {
 export function outcomeOf(proto: number, state: number, dport: number): Outcome {
   if (proto === 1 || proto === 58) {
     if (dport >> 8 !== (proto === 1 ? 8 : 128)) return 'n/a';
-    return (state & St.ReverseSeen) !== 0 ? 'established' : 'unanswered';
+    return udpLike(state);
   }
   if (proto === 6) {
     // an established connection stays established in later updates, whatever comes after
@@ -68,6 +68,11 @@ export function outcomeOf(proto: number, state: number, dport: number): Outcome 
     if ((state & (St.SynAckBack | St.ReverseSeen | St.TtlExpired)) !== 0) return 'partial';
     return 'unanswered';
   }
+  return udpLike(state);
+}
+
+/** UDP, other protocols and ICMP echo: answered, refused, expired on the way, or unanswered. */
+function udpLike(state: number): Outcome {
   if ((state & St.ReverseSeen) !== 0) return 'established';
   if ((state & St.IcmpRejected) !== 0) return 'rejected';
   // it never reached its target: neither an answer nor a failure there

@@ -19,7 +19,8 @@
  *   back), `partial` (first packet seen was not a SYN, or SYN and SYN-ACK with no completion yet).
  *   UDP and other protocols: `established` when both directions carried packets, `rejected` after an
  *   ICMP unreachable quoting it, `unanswered` when only the initiator sent. ICMP echo requests (their
- *   flow holds the replies): `established` when answered, else `unanswered`; other ICMP flows: `n/a`.
+ *   flow holds the replies) as UDP: `established` when answered, `rejected` by an unreachable quoting
+ *   them, `partial` by a time exceeded, else `unanswered`; other ICMP flows: `n/a`.
  * - `exporter`: for captures the input's base name (`stdin` for `-`); for flow exports the exporter
  *   address (`ADDR:PORT` on the network) or the file's base name, with `/ODID` for IPFIX/v9 domains.
  * - `vlan`: outermost 802.1Q VID when known, otherwise absent.

@@ -139,12 +139,18 @@ describe('FlowTable: initiator, direction counters, TCP outcomes (record.ts conv
     send(ipv4({ src: S, dst: '10.60.1.6', proto: 1, payload: icmp(0, 0, new Uint8Array(56)) }), T0 + 2);
     send(ipv4({ src: C, dst: '198.51.100.8', proto: 1, payload: icmp(8, 0, new Uint8Array(56)) }), T0 + 3);
     send(ipv4({ src: C, dst: '198.51.100.9', proto: 1, payload: icmp(13, 0, new Uint8Array(12)) }), T0 + 4);
+    // a router's host unreachable quoting an echo request refuses it (RFC 792 type 3 code 1)
+    const ping = ipv4({ src: C, dst: '198.51.100.10', proto: 1, payload: icmp(8, 0, new Uint8Array(56)) });
+    send(ping, T0 + 5);
+    send(ipv4({ src: '203.0.113.9', dst: C, proto: 1, payload: icmp(3, 1, ping.subarray(0, 28)) }), T0 + 6);
     table.flush();
     expect(out.map((r) => [r.src, r.dst, r.sport, r.dport, r.pkts, r.rpkts, r.outcome])).toEqual([
       [C, S, 0, 0x0800, 1, 1, 'established'],
       ['10.60.1.6', S, 0, 0x0800, 0, 1, 'established'],
       [C, '198.51.100.8', 0, 0x0800, 1, 0, 'unanswered'],
       [C, '198.51.100.9', 0, 13 * 256, 1, 0, 'n/a'],
+      [C, '198.51.100.10', 0, 0x0800, 1, 0, 'rejected'],
+      ['203.0.113.9', C, 0, 3 * 256 + 1, 1, 0, 'n/a'],
     ]);
   });
 

@@ -270,9 +270,9 @@ def golden_icmp6_unreachable():
 
 
 def golden_icmp_time_exceeded():
-    """Traceroute probes whose hop limit ran out: a UDP probe and a TCP SYN answered by routers with
-    ICMP time exceeded (11/0), an IPv6 UDP probe with ICMPv6 time exceeded (3/0): each probe is partial,
-    each error its own flow (dport 2816, ICMPv6 768)."""
+    """Traceroute probes whose hop limit ran out: a UDP probe, a TCP SYN and an ICMP echo request
+    answered by routers with ICMP time exceeded (11/0), an IPv6 UDP probe with ICMPv6 time exceeded
+    (3/0): each probe is partial, each error its own flow (dport 2816, ICMPv6 768)."""
     lt = LT_ETHERNET
     probe = udp('192.0.2.50', '198.51.100.50', 47001, 33434, b'trace' * 4, ip_id=50)
     hop = IP(src='203.0.113.5', dst='192.0.2.50', id=51) / ICMP(type=11, code=0) / Raw(quote_v4(probe))
@@ -280,9 +280,12 @@ def golden_icmp_time_exceeded():
     hop2 = IP(src='203.0.113.6', dst='192.0.2.50', id=52) / ICMP(type=11, code=0) / Raw(quote_v4(syn))
     probe6 = udp('2001:db8:50::a', '2001:db8:50::b', 47101, 33435, b'trace6' * 4, ipv6=True)
     hop6 = IPv6(src='2001:db8:50::1', dst='2001:db8:50::a') / ICMPv6TimeExceeded(code=0) / Raw(bytes(probe6))
+    ping = IP(src='192.0.2.50', dst='198.51.100.51', id=53) / ICMP(type=8, id=0x50, seq=1) / Raw(b'hop' * 8)
+    hop3 = IP(src='203.0.113.7', dst='192.0.2.50', id=54) / ICMP(type=11, code=0) / Raw(quote_v4(ping))
     return [(100_000, frame(lt, probe)), (100_400, frame(lt, hop, outbound=True)),
             (200_000, frame(lt, syn)), (200_500, frame(lt, hop2, outbound=True)),
-            (300_000, frame(lt, probe6)), (300_600, frame(lt, hop6, outbound=True))]
+            (300_000, frame(lt, probe6)), (300_600, frame(lt, hop6, outbound=True)),
+            (400_000, frame(lt, ping)), (400_700, frame(lt, hop3, outbound=True))]
 
 
 def golden_one_way_tcp():
@@ -735,25 +738,25 @@ class Flow:
             self.completed = True
 
     def outcome(self):
+        """The capture path's rules (src/flow/flow-state.ts outcomeOf), in its order."""
         if self.proto in (1, 58):
             # an echo request's flow holds its replies: answered or not; other ICMP flows have none
             if self.dport >> 8 != ICMP_ECHO_REPLY_TO_REQUEST[(self.proto, 0 if self.proto == 1 else 129)]:
                 return 'n/a'
-            return 'established' if self.rpkts > 0 else 'unanswered'
-        if self.icmp_rejected:
-            return 'rejected'
-        if self.proto == 6:
+        elif self.proto == 6:
+            if self.opened_with_syn and self.completed:
+                return 'established'
+            if self.icmp_rejected:
+                return 'rejected'
             if not self.opened_with_syn:
                 return 'partial'
             if self.reset_back:
                 return 'rejected'
-            if self.completed:
-                return 'established'
-            if self.syn_ack_back:
-                return 'partial'
-            return 'partial' if self.rpkts or self.ttl_expired else 'unanswered'
+            return 'partial' if self.syn_ack_back or self.rpkts or self.ttl_expired else 'unanswered'
         if self.rpkts > 0:
             return 'established'
+        if self.icmp_rejected:
+            return 'rejected'
         return 'partial' if self.ttl_expired else 'unanswered'
 
     def record(self, exporter):
@@ -824,6 +827,8 @@ class FlowTable:
             # RFC 792 guarantees only 8 octets of the quoted transport header, too few for dpkt to
             # parse TCP; the ports are its first 4 octets either way.
             sport, dport = struct.unpack('>HH', bytes(quoted.data)[:4])
+            if quoted.p in (1, 58):  # a quoted ICMP message: its flow is keyed by type and code
+                sport, dport = 0, struct.unpack('>H', bytes(quoted.data)[:2])[0]
             flow = self.flows.get(endpoint_key(quoted.p, addr(quoted.src), sport, addr(quoted.dst), dport))
             if flow is not None and msg.type == ICMP_UNREACHABLE[proto]:
                 flow.icmp_rejected = True
@@ -908,7 +913,7 @@ GOLDENS = [
      lambda p: write_pcap(p, LT_ETHERNET, golden_icmp6_unreachable())),
     ('icmp-time-exceeded.pcap', 'pcap LE µs, linktype 1',
      'traceroute probes answered by routers with ICMP time exceeded (11/0) and ICMPv6 time exceeded (3/0): '
-     'UDP and TCP probes partial, error flows dport 2816 and 768',
+     'UDP, TCP and ICMP echo probes partial, error flows dport 2816 and 768',
      lambda p: write_pcap(p, LT_ETHERNET, golden_icmp_time_exceeded())),
     ('one-way-tcp.pcap', 'pcap LE µs, linktype 1',
      'one direction of a tap: SYN, ACK, data, FIN from a client, nothing back (established, the ACK implies '
