@@ -1,3 +1,4 @@
+import { execFileSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
@@ -29,6 +30,13 @@ describe('first packet time of a capture', () => {
     writeFileSync(gz, gzipSync(readFileSync(golden('scapy_be.pcapng'))));
     expect(await firstPacketTime(gz)).toBe(await firstPacketTime(golden('scapy_be.pcapng')));
     expect(await firstPacketTime(capture('a.pcap', 1_773_133_200))).toBe(1_773_133_200_250);
+  });
+
+  it('does not open a pipe, whose bytes the replay needs (ours)', async () => {
+    const fifo = join(dir, 'pipe');
+    execFileSync('mkfifo', [fifo]);
+    // opening a pipe with no writer would block: answering at once shows it was not opened
+    expect(await firstPacketTime(fifo)).toBe(null);
   });
 
   it('is unknown for stdin, a flow log, an empty or a missing file (ours)', async () => {

@@ -1,4 +1,4 @@
-import { open } from 'node:fs/promises';
+import { open, stat } from 'node:fs/promises';
 import { constants, gunzipSync } from 'node:zlib';
 import { CaptureParser } from '../capture/parser.js';
 import { sniffFormat } from './sniff.js';
@@ -11,11 +11,15 @@ const INFLATED_BYTES = 16 * 1024 * 1024;
 
 /**
  * The event time (epoch ms) of a capture's first packet (pcap, pcapng, or either gzipped), from its
- * first PEEK_BYTES; null for stdin, flow exports and logs, unreadable files, or no packet there.
+ * first PEEK_BYTES; null for stdin, pipes and devices (nothing is read from them), flow exports and
+ * logs, unreadable files, or no packet there.
  */
 export async function firstPacketTime(name: string): Promise<number | null> {
   if (name === '-') return null;
   try {
+    // a pipe or device (process substitution, /dev/stdin) is not even opened: its writer would see
+    // this reader go away, and what was read here would be lost to the replay
+    if (!(await stat(name)).isFile()) return null;
     const fh = await open(name, 'r');
     let head: Uint8Array;
     try {
