@@ -30,14 +30,14 @@ export class ReaderContext {
     private readonly onProblem: ((p: InputProblem) => void) | undefined,
   ) {}
 
-  deliver(buf: Uint8Array, off: number, capLen: number, origLen: number, sec: number, ns: number, linkType: number, fileOff: number): void {
+  deliver(buf: Uint8Array, off: number, capLen: number, origLen: number, sec: number, ns: number, linkType: number, fileOff: number, dataOff: number): void {
     const s = this.summary;
     s.packets++;
     s.capturedBytes += capLen;
     this.lastSec = sec;
     this.lastNs = ns;
     // A reader MAY raise the original length to the captured length (draft-ietf-opsawg-pcap, packet record).
-    this.onPacket(buf, off, capLen, origLen < capLen ? capLen : origLen, sec, ns, linkType, fileOff);
+    this.onPacket(buf, off, capLen, origLen < capLen ? capLen : origLen, sec, ns, linkType, fileOff, dataOff);
   }
 
   /** Counts the problem; a fatal one stops the input. Objects are made only while kept or watched. */

@@ -58,7 +58,7 @@ export class PcapReader implements UnitReader {
     const le = this.le;
     const sub = u32(buf, off + 4, le);
     this.ctx.deliver(buf, off + PCAP_RECORD_HEADER, len - PCAP_RECORD_HEADER, u32(buf, off + 12, le),
-      u32(buf, off, le), this.nano ? sub : sub * 1000, this.linkType, fileOff);
+      u32(buf, off, le), this.nano ? sub : sub * 1000, this.linkType, fileOff, fileOff + PCAP_RECORD_HEADER);
   }
 
   skipped(): void {
@@ -77,7 +77,8 @@ export class PcapReader implements UnitReader {
       const cap = u32(buf, p + 8, le);
       const next = p + PCAP_RECORD_HEADER + cap;
       if (sub >= subLimit || cap > capLimit || next > end) break;
-      ctx.deliver(buf, p + PCAP_RECORD_HEADER, cap, u32(buf, p + 12, le), u32(buf, p, le), nano ? sub : sub * 1000, linkType, fileOff + p - off);
+      const at = fileOff + p - off;
+      ctx.deliver(buf, p + PCAP_RECORD_HEADER, cap, u32(buf, p + 12, le), u32(buf, p, le), nano ? sub : sub * 1000, linkType, at, at + PCAP_RECORD_HEADER);
       p = next;
     }
     return p;

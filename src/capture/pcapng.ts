@@ -190,7 +190,7 @@ export class PcapngReader implements UnitReader {
     const units = ifs.units[id]!;
     if (units > 0) ticksToInstant(u32(buf, off + 12, le), u32(buf, off + 16, le), units, ifs.nsPer[id]!, ifs.offsetSec[id]!, t);
     else ticksToInstantSlow(u32(buf, off + 12, le), u32(buf, off + 16, le), ifs.tsresol[id]!, ifs.offsetSec[id]!, t);
-    this.ctx.deliver(buf, off + 28, cap, u32(buf, off + 24, le), t.sec, t.ns, ifs.linkType[id]!, fileOff);
+    this.ctx.deliver(buf, off + 28, cap, u32(buf, off + 24, le), t.sec, t.ns, ifs.linkType[id]!, fileOff, fileOff + 28);
   }
 
   /** SPB: interface 0 implied, no timestamp, captured = min(original, snaplen) (METHODS.md 1.2). */
@@ -208,7 +208,7 @@ export class PcapngReader implements UnitReader {
     }
     if (!this.capturedLengthOk(cap, 0, fileOff)) return;
     this.ctx.summary.untimed = true;
-    this.ctx.deliver(buf, off + 12, cap, orig, this.ctx.lastSec, this.ctx.lastNs, this.ifs.linkType[0]!, fileOff);
+    this.ctx.deliver(buf, off + 12, cap, orig, this.ctx.lastSec, this.ctx.lastNs, this.ifs.linkType[0]!, fileOff, fileOff + 12);
   }
 
   private knownInterface(id: number, fileOff: number): boolean {

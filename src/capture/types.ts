@@ -11,6 +11,8 @@ import type { InputProblem } from '../util/problem.js';
  * @param tsNs     nanoseconds within that second, 0..999_999_999 (integer)
  * @param linkType link-layer type of this packet's interface (pcap LINKTYPE_* value)
  * @param fileOff  byte offset of the record header in the input (for error reports)
+ * @param dataOff  byte offset of the packet's first octet in the input (after a record header of 16
+ *                 octets in pcap, 28 in a pcapng enhanced or obsolete packet block, 12 in a simple one)
  */
 export type PacketSink = (
   buf: Uint8Array,
@@ -21,6 +23,7 @@ export type PacketSink = (
   tsNs: number,
   linkType: number,
   fileOff: number,
+  dataOff: number,
 ) => void;
 
 export type CaptureFormat = 'pcap' | 'pcapng';

@@ -35,22 +35,6 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
     if (p.fatal && !stoppedBy) stoppedBy = p;
     opts.onProblem?.(p);
   };
-  // a packet's data starts this far after its record header (pcap 16, pcapng EPB 28): problem offsets
-  // inside a message then name the file's own bytes
-  let recordHeader = 16;
-  const first = src.read.bind(src);
-  let sniffed = false;
-  const source: ByteSource = {
-    name: src.name, size: src.size, consumed: () => src.consumed(), close: () => src.close(),
-    read: async () => {
-      const c = await first();
-      if (!sniffed && c && c.length >= 4) {
-        sniffed = true;
-        if (c[0] === 0x0a && c[1] === 0x0d && c[2] === 0x0d && c[3] === 0x0a) recordHeader = 28;
-      }
-      return c;
-    },
-  };
 
   const exporterFor = (version: number): ExporterDecoder | null => {
     const s6 = v.src6;
@@ -66,7 +50,7 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
     return e;
   };
 
-  const onPacket: PacketSink = (buf, off, capLen, _origLen, _tsSec, _tsNs, linkType, fileOff) => {
+  const onPacket: PacketSink = (buf, off, capLen, _origLen, _tsSec, _tsNs, linkType, _fileOff, dataOff) => {
     // an export datagram by the same rule as the sniffing: the version word on a collector port, the
     // whole datagram's structure on any other (a DNS query with id 9 is not a NetFlow packet)
     if (!decoder.decode(buf, off, capLen, linkType) || v.proto !== 17 || !isExportDatagram(buf, v.l4Offset, v.l4Limit, v.sport, v.dport)) {
@@ -83,7 +67,8 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
     count.exportDatagrams++;
     const udpEnd = l4 + ((buf[l4 + 4]! << 8) | buf[l4 + 5]!);
     const end = udpEnd < v.l4Limit ? udpEnd : v.l4Limit;
-    const inputOff = fileOff + recordHeader + (payload - off);
+    // problem offsets inside a message name the file's own bytes
+    const inputOff = dataOff + (payload - off);
     if (udpEnd > v.l4Limit) {
       count.truncatedDatagrams++;
       onProblem({ file: src.name, offset: inputOff, reason: 'truncated-datagram', message: `export datagram cut by the capture (${udpEnd - v.l4Limit} bytes missing); decoded as far as it goes`, fatal: false });
@@ -91,7 +76,7 @@ export async function ingestExportCapture(src: ByteSource, sink: FlowSink, opts:
     exporterFor(version)?.datagram(buf, payload, end - payload, inputOff);
   };
 
-  const cap = await readCapture(source, onPacket, onProblem);
+  const cap = await readCapture(src, onPacket, onProblem);
   const counters: Record<string, number> = {};
   const problems: Record<string, number> = { ...cap.problemCounts };
   let bytes = 0, flows = 0, firstMs = NaN, lastMs = NaN;
