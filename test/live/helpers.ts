@@ -94,3 +94,11 @@ export async function trickle(w: NodeJS.WritableStream, data: Buffer, chunk: num
     await sleep(pauseMs);
   }
 }
+
+/** Start of the flow-log lines below: 2026-03-10T09:00:00Z. */
+export const LOG_T0 = Date.UTC(2026, 2, 10, 9, 0, 0);
+
+/** Flow-log line i (JSON Lines): one TCP flow from an inside host, 10 ms after the one before. */
+export function flowLogLine(i: number): string {
+  return `${JSON.stringify({ start: LOG_T0 + i * 10, end: LOG_T0 + i * 10 + 5, proto: 6, src: '10.60.1.10', dst: '198.51.100.2', sport: 40000 + i, dport: 443, pkts: 3, bytes: 180 })}\n`;
+}

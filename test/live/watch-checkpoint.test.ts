@@ -4,7 +4,7 @@ import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { Sensor } from '../../src/sensor/sensor.js';
 import { SensorState } from '../../src/store/session.js';
-import { readStatus, startCli, waitFor } from './helpers.js';
+import { flowLogLine, LOG_T0, readStatus, startCli, waitFor } from './helpers.js';
 
 // `watch --state --checkpoint-interval`: a live sensor killed with SIGKILL (no stop, no final
 // checkpoint) keeps what it learned up to its last periodic checkpoint, and the next start continues
@@ -12,8 +12,8 @@ import { readStatus, startCli, waitFor } from './helpers.js';
 const dir = mkdtempSync(join(tmpdir(), 'tidewatch-live-checkpoint-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-const T = Date.UTC(2026, 2, 10, 9, 0, 0);
-const line = (i: number) => `${JSON.stringify({ start: T + i * 10, end: T + i * 10 + 5, proto: 6, src: '10.60.1.10', dst: '198.51.100.2', sport: 40000 + i, dport: 443, pkts: 3, bytes: 180 })}\n`;
+const T = LOG_T0;
+const line = flowLogLine;
 
 describe('watch checkpoints', () => {
   it('a sensor killed without its stop restarts from its last periodic checkpoint', async () => {

@@ -2,7 +2,7 @@ import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { readStatus, startCli, waitFor } from './helpers.js';
+import { flowLogLine, LOG_T0, readStatus, startCli, waitFor } from './helpers.js';
 
 // watch --follow on a flow log that stops growing: the windows close by wall-clock idleness alone
 // (issue 6: "windows also close on wall-clock idleness"); SIGHUP reloads the rules, refusing an
@@ -10,8 +10,8 @@ import { readStatus, startCli, waitFor } from './helpers.js';
 const dir = mkdtempSync(join(tmpdir(), 'tidewatch-live-follow-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-const T = Date.UTC(2026, 2, 10, 9, 0, 0);
-const line = (i: number) => `${JSON.stringify({ start: T + i * 10, end: T + i * 10 + 5, proto: 6, src: '10.60.1.10', dst: '198.51.100.2', sport: 40000 + i, dport: 443, pkts: 3, bytes: 180 })}\n`;
+const T = LOG_T0;
+const line = flowLogLine;
 
 describe('watch --follow', () => {
   it('closes windows on idleness without more data, reloads rules on SIGHUP and refuses an invalid set', async () => {
