@@ -1,33 +1,14 @@
 import { OUTCOMES, type FlowRecord, type Outcome } from '../flow/record.js';
 import { normaliseAddress } from '../util/addr.js';
 import { parseRfc3339 } from '../util/time.js';
+import { parseTcpFlags } from './columns.js';
 import { exportedOutcome } from './outcome.js';
 
-/** Row keys a flow log may use: FlowRecord field names, or IPFIX IE names (IANA registry, RFC 7012). */
-const ALIASES: Record<string, string> = {
-  flowStartMilliseconds: 'start', flowStartSeconds: 'start', flowStartMicroseconds: 'start',
-  flowEndMilliseconds: 'end', flowEndSeconds: 'end', flowEndMicroseconds: 'end',
-  protocolIdentifier: 'proto',
-  sourceIPv4Address: 'src', sourceIPv6Address: 'src',
-  destinationIPv4Address: 'dst', destinationIPv6Address: 'dst',
-  sourceTransportPort: 'sport', destinationTransportPort: 'dport',
-  packetDeltaCount: 'pkts', octetDeltaCount: 'bytes',
-  reversePacketDeltaCount: 'rpkts', reverseOctetDeltaCount: 'rbytes',
-  initiatorPackets: 'pkts', initiatorOctets: 'bytes', responderPackets: 'rpkts', responderOctets: 'rbytes',
-  // running totals count only when the row has no delta (or initiator/responder) counter
-  packetTotalCount: 'pkts~', octetTotalCount: 'bytes~', reversePacketTotalCount: 'rpkts~', reverseOctetTotalCount: 'rbytes~',
-  tcpControlBits: 'flags', reverseTcpControlBits: 'rflags',
-  vlanId: 'vlan',
-  icmpTypeCodeIPv4: 'icmpTypeCode', icmpTypeCodeIPv6: 'icmpTypeCode',
+/** Protocol names (IANA "Protocol Numbers" keywords, and the spellings flow logs use for ICMPv6). */
+const PROTO_NAMES: Record<string, number> = {
+  tcp: 6, udp: 17, icmp: 1, icmpv6: 58, 'ipv6-icmp': 58, icmp6: 58, sctp: 132, igmp: 2, gre: 47, esp: 50, ah: 51,
+  ipv6: 41, ospf: 89, ospfigp: 89, pim: 103, vrrp: 112, udplite: 136,
 };
-
-/** The FlowRecord field a row key stands for (unknown keys are returned unchanged and ignored). */
-export function canonicalKey(k: string): string {
-  const t = k.trim();
-  return ALIASES[t] ?? t;
-}
-
-const PROTO_NAMES: Record<string, number> = { tcp: 6, udp: 17, icmp: 1, icmpv6: 58, 'ipv6-icmp': 58, sctp: 132 };
 
 function present(v: unknown): boolean {
   return v !== undefined && v !== null && v !== '';
@@ -39,18 +20,37 @@ function num(v: unknown): number {
   return NaN;
 }
 
-/** Epoch seconds or epoch ms (told apart by magnitude: below 1e11 is seconds), or RFC 3339 text. */
+/**
+ * Epoch seconds, milliseconds, microseconds or nanoseconds, told apart by magnitude (below 1e11 is
+ * seconds, below 1e14 milliseconds, below 1e17 microseconds: each spans the years 1973 to 5138), or
+ * RFC 3339 text; a date and time without a zone (`2026-03-10 09:00:02.5`) is taken as UTC.
+ */
 export function parseTimestamp(v: unknown): number {
   const n = num(v);
-  if (Number.isFinite(n)) return Math.abs(n) < 1e11 ? n * 1000 : n;
-  return typeof v === 'string' ? parseRfc3339(v.trim()) : NaN;
+  if (Number.isFinite(n)) {
+    const a = Math.abs(n);
+    return a < 1e11 ? n * 1000 : a < 1e14 ? n : a < 1e17 ? n / 1000 : n / 1e6;
+  }
+  if (typeof v !== 'string') return NaN;
+  const t = v.trim();
+  return parseRfc3339(/^\d{4}-\d{2}-\d{2}[Tt ]\d{2}:\d{2}:\d{2}(\.\d+)?$/.test(t) ? `${t}Z` : t);
 }
 
 function count(row: Record<string, unknown>, k: string): number | string {
   const v = row[k];
   if (!present(v)) return 0;
-  const n = num(v);
+  const n = (k === 'flags' || k === 'rflags') && typeof v === 'string' ? parseTcpFlags(v) : num(v);
   return Number.isFinite(n) && n >= 0 ? n : `${k} is not a non-negative number`;
+}
+
+/** A row's duration in milliseconds (0 when it has none), or why it is not one. */
+function duration(row: Record<string, unknown>): number | string {
+  for (const [k, ms] of [['durationMs', 1], ['durationUs', 0.001], ['durationS', 1000]] as const) {
+    if (!present(row[k])) continue;
+    const d = num(row[k]);
+    return Number.isFinite(d) && d >= 0 ? d * ms : `${k === 'durationS' ? 'duration' : k} ${JSON.stringify(row[k])} is not a duration`;
+  }
+  return 0;
 }
 
 /**
@@ -58,7 +58,7 @@ function count(row: Record<string, unknown>, k: string): number | string {
  * one. `exporter` is used unless the row names its own.
  */
 export function rowToFlow(row: Record<string, unknown>, exporter: string): FlowRecord | string {
-  for (const k of ['pkts', 'bytes', 'rpkts', 'rbytes']) if (!present(row[k]) && present(row[`${k}~`])) row[k] = row[`${k}~`];
+  for (const k of ['pkts', 'bytes', 'rpkts', 'rbytes', 'start']) if (!present(row[k]) && present(row[`${k}~`])) row[k] = row[`${k}~`];
   const src = typeof row['src'] === 'string' ? normaliseAddress(row['src'].trim()) : null;
   if (!src) return present(row['src']) ? `src ${JSON.stringify(row['src'])} is not an address` : 'src missing';
   const dst = typeof row['dst'] === 'string' ? normaliseAddress(row['dst'].trim()) : null;
@@ -72,8 +72,10 @@ export function rowToFlow(row: Record<string, unknown>, exporter: string): FlowR
   if (present(row['start']) && !Number.isFinite(start)) return `start ${JSON.stringify(row['start'])} is not a timestamp`;
   if (present(row['end']) && !Number.isFinite(end)) return `end ${JSON.stringify(row['end'])} is not a timestamp`;
   if (!Number.isFinite(start) && !Number.isFinite(end)) return 'start missing';
-  if (!Number.isFinite(start)) start = end;
-  if (!Number.isFinite(end)) end = start;
+  const dur = duration(row);
+  if (typeof dur === 'string') return dur;
+  if (!Number.isFinite(start)) start = end - dur;
+  if (!Number.isFinite(end)) end = start + dur;
 
   const fields = ['sport', 'dport', 'pkts', 'bytes', 'rpkts', 'rbytes', 'flags', 'rflags'] as const;
   const v: Record<(typeof fields)[number], number> = { sport: 0, dport: 0, pkts: 0, bytes: 0, rpkts: 0, rbytes: 0, flags: 0, rflags: 0 };

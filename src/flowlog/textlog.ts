@@ -1,9 +1,11 @@
-import { parse, type CsvError } from 'csv-parse';
+import { parse, type CsvError, type Parser } from 'csv-parse';
+import { parse as parseSync } from 'csv-parse/sync';
 import type { FlowRecord, FlowSink } from '../flow/record.js';
 import { inputLabel, type ByteSource } from '../ingest/source.js';
 import type { IngestOptions, IngestSummary, InputFormat } from '../ingest/types.js';
 import { ProblemCounter } from '../util/problem.js';
-import { canonicalKey, rowToFlow } from './row.js';
+import { canonicalKey, missingColumns } from './columns.js';
+import { rowToFlow } from './row.js';
 
 /** A line (CSV: a record) longer than this is reported and skipped, never buffered whole. */
 export const MAX_LINE_BYTES = 1 << 20;
@@ -167,44 +169,80 @@ export async function ingestJsonl(src: ByteSource, sink: FlowSink, opts: IngestO
   return t.summary('jsonl');
 }
 
+/** Column separators a CSV flow log may use; the header line decides (the one it holds most of, outside quotes). */
+const SEPARATORS = [',', ';', '\t', '|'] as const;
+
+/** The separator of a header line: the most frequent of SEPARATORS outside quotes, a comma on a tie or none. */
+export function headerSeparator(line: string): string {
+  const n = new Map<string, number>(SEPARATORS.map((c) => [c, 0]));
+  let quoted = false;
+  for (const ch of line) {
+    if (ch === '"') quoted = !quoted;
+    else if (!quoted && n.has(ch)) n.set(ch, n.get(ch)! + 1);
+  }
+  let best = ',';
+  for (const c of SEPARATORS) if (n.get(c)! > n.get(best)!) best = c;
+  return best;
+}
+
 /**
- * CSV flow log with a header row (RFC 4180 quoting, parsed by csv-parse as a stream). Records longer
- * than MAX_LINE_BYTES never reach the parser: the splitter replaces them by as many empty lines, so
- * the parser's line numbers stay those of the file.
+ * CSV flow log with a header row (RFC 4180 quoting, parsed by csv-parse as a stream); columns may be
+ * separated by commas, semicolons, tabs or bars (the header line decides). Records longer than
+ * MAX_LINE_BYTES never reach the parser: the splitter replaces them by as many empty lines, so the
+ * parser's line numbers stay those of the file. A header naming none of the columns a flow needs
+ * (columns.ts, missingColumns) stops the input with a one-line error, rather than one per line.
  */
 export async function ingestCsv(src: ByteSource, sink: FlowSink, opts: IngestOptions): Promise<IngestSummary> {
   const t = new TextIngest(src.name, sink, opts);
-  const parser = parse({
-    bom: true, columns: (h: string[]) => h.map(canonicalKey), relax_column_count: true, skip_empty_lines: true,
-    trim: true, info: true, skip_records_with_error: true,
-    on_skip: (err: CsvError | undefined) => {
-      if (err) t.bad(Number((err as unknown as { lines?: number }).lines ?? -1), 'bad-csv', err.message.split('\n')[0]!);
-    },
-  });
-  const consume = (async () => {
-    for await (const item of parser as AsyncIterable<{ record: Record<string, string>; info: { lines: number } }>) {
-      t.row(item.record, item.info.lines);
-    }
-  })();
+  let parser: Parser | null = null;
+  let consume: Promise<void> = Promise.resolve();
+  let headerError: string | null = null, headerLine = 1;
+  const start = (header: string) => {
+    const delimiter = headerSeparator(header);
+    const columns = parseSync(header, { delimiter, bom: true, relax_quotes: true, relax_column_count: true })[0] as string[] | undefined;
+    const why = missingColumns((columns ?? []).map(canonicalKey));
+    if (why) { headerError = why; return; }
+    const p = parse({
+      bom: true, delimiter, columns: (h: string[]) => h.map(canonicalKey), relax_column_count: true, skip_empty_lines: true,
+      trim: true, info: true, skip_records_with_error: true,
+      on_skip: (err: CsvError | undefined) => {
+        if (err) t.bad(Number((err as unknown as { lines?: number }).lines ?? -1), 'bad-csv', err.message.split('\n')[0]!);
+      },
+    });
+    parser = p;
+    consume = (async () => {
+      for await (const item of p as AsyncIterable<{ record: Record<string, string>; info: { lines: number } }>) {
+        t.row(item.record, item.info.lines);
+      }
+    })();
+  };
   const pieces: Buffer[] = [];
   const NEWLINE = Buffer.from('\n');
-  const split = new RecordSplitter(true, (b, s, e) => {
+  const split = new RecordSplitter(true, (b, s, e, line) => {
+    if (parser === null && headerError === null) {
+      const text = recordText(b, s, e, line);
+      if (text.trim() !== '') { headerLine = line; start(text); }
+    }
     pieces.push(Buffer.from(b.subarray(s, e)), NEWLINE);
   }, (line, lines) => {
     t.bad(line, 'line-too-long', tooLongMessage);
     pieces.push(Buffer.alloc(lines, '\n'));
   });
-  for (let c = await src.read(); c !== null; c = await src.read()) {
+  const flush = async () => {
+    const p = parser as Parser | null;
+    if (p === null || pieces.length === 0) return;
+    const ok = p.write(Buffer.concat(pieces));
+    pieces.length = 0;
+    if (!ok) await new Promise((r) => p.once('drain', r));
+  };
+  for (let c = await src.read(); c !== null && headerError === null; c = await src.read()) {
     split.feed(c);
-    if (pieces.length > 0) {
-      const ok = parser.write(Buffer.concat(pieces));
-      pieces.length = 0;
-      if (!ok) await new Promise((r) => parser.once('drain', r));
-    }
+    await flush();
   }
-  split.end();
-  if (pieces.length > 0) parser.write(Buffer.concat(pieces));
-  parser.end();
+  if (headerError === null) split.end();
+  if (headerError !== null) throw new Error(`${src.name}: line ${headerLine}: not a flow log: ${headerError}`);
+  await flush();
+  (parser as Parser | null)?.end();
   await consume;
   return t.summary('csv');
 }
