@@ -82,3 +82,16 @@ describe('flow logs with plain column names', () => {
     expect(problems).toEqual([]);
   });
 });
+
+describe('JSON Lines with nested objects', () => {
+  it('keys of nested objects count by their own name, and never replace an outer key (common practice, no source)', async () => {
+    const line = JSON.stringify({
+      src: '192.0.2.99',
+      payload: { connection: { src_ip: '192.0.2.1', dest_ip: '198.51.100.2', src_port: 40000, dest_port: 443, protocol: 6 },
+        start_time: '2026-03-10T09:00:00Z', end_time: '2026-03-10T09:00:05Z', bytes_sent: '5000', packets_sent: '8' },
+    });
+    const { recs, problems } = await runIngest(ingestJsonl, enc(line));
+    expect(problems).toEqual([]);
+    expect(recs[0]).toMatchObject({ src: '192.0.2.99', dst: '198.51.100.2', dport: 443, proto: 6, bytes: 5000, pkts: 8, end: Date.UTC(2026, 2, 10, 9, 0, 5) });
+  });
+});

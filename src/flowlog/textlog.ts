@@ -144,6 +144,24 @@ export class TextIngest {
 
 export const tooLongMessage = `line longer than ${MAX_LINE_BYTES} bytes skipped`;
 
+/** Nesting levels of a JSON Lines object whose keys are read. */
+const MAX_NESTING = 4;
+
+/**
+ * A JSON object's keys into `row` by canonical name. Keys of nested objects count by their own name
+ * (`{"connection": {"src_ip": ...}}` gives `src`), as cloud flow logs nest them, but never replace a
+ * key of an outer level.
+ */
+function flattenInto(row: Record<string, unknown>, obj: Record<string, unknown>, depth: number): void {
+  const nested: Record<string, unknown>[] = [];
+  for (const [k, x] of Object.entries(obj)) {
+    if (typeof x === 'object' && x !== null && !Array.isArray(x)) { if (depth < MAX_NESTING) nested.push(x as Record<string, unknown>); }
+    else if (depth === 0) row[canonicalKey(k)] = x;
+    else { const c = canonicalKey(k); if (!(c in row)) row[c] = x; }
+  }
+  for (const n of nested) flattenInto(row, n, depth + 1);
+}
+
 /**
  * JSON Lines flow log: one object per line, keys FlowRecord names or IPFIX IE names. A blank line is
  * an invalid record (jsonlines.org; METHODS.md check value 39).
@@ -161,7 +179,7 @@ export async function ingestJsonl(src: ByteSource, sink: FlowSink, opts: IngestO
     }
     if (typeof v !== 'object' || v === null || Array.isArray(v)) { t.bad(line, 'bad-json', 'not a JSON object'); return; }
     const row: Record<string, unknown> = {};
-    for (const [k, x] of Object.entries(v)) row[canonicalKey(k)] = x;
+    flattenInto(row, v as Record<string, unknown>, 0);
     t.row(row, line);
   }, (line) => t.bad(line, 'line-too-long', tooLongMessage));
   for (let c = await src.read(); c !== null; c = await src.read()) split.feed(c);
