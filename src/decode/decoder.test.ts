@@ -91,6 +91,7 @@ describe('link layers (METHODS.md 1.3)', () => {
     run(ether(0x88cc, new Uint8Array(28)), 1, d);
     run(tcpSyn, 105, d); // IEEE802_11: undecoded
     expect(d.stats.toObject()).toEqual({ arp: 1, 'non-ip': 1, 'undecoded-linktype': 1 });
+    expect(d.stats.undecodedLinkType).toBe(105);
     expect(d.stats.decoded).toBe(0);
   });
 });

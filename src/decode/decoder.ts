@@ -122,6 +122,7 @@ export class Decoder {
         if (b[p] === 0xff && b[p + 1] === 0x03) return this.ppp(b, p + 2, end);
         return this.etherType(b, p + 4, end, u16(b, p + 2));
       default:
+        if (this.stats.undecodedLinkType < 0) this.stats.undecodedLinkType = linkType;
         return this.skip(R['undecoded-linktype']);
     }
   }

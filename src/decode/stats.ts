@@ -54,6 +54,8 @@ export class DecodeStats {
   decoded = 0;
   /** Tunnels opened (VXLAN, GENEVE, GRE with Ethernet, ERSPAN): the inner packet was decoded. */
   decapsulated = 0;
+  /** The first link type met that is not decoded (its packets count as `undecoded-linktype`), or -1. */
+  undecodedLinkType = -1;
   readonly counts = new Float64Array(REASONS.length);
 
   count(reason: number): void {

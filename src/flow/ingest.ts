@@ -82,6 +82,7 @@ export async function ingestCapture(src: ByteSource, sink: FlowSink, opts: Inges
       droppedByCapture: cap.droppedByCapture,
       untimed: cap.untimed ? 1 : 0,
       exportLikeDatagrams: exportLike,
+      ...(decoder.stats.undecodedLinkType >= 0 ? { undecodedLinkType: decoder.stats.undecodedLinkType } : {}),
     },
   };
   if (stoppedBy) summary.stoppedBy = stoppedBy;

@@ -21,4 +21,10 @@ describe('notes under an input summary (ours)', () => {
     expect(inputNotes(summary(10, { samplingInterval: 1000 }))).toEqual(['note: the exporter samples 1 in 1000 packets; packets and bytes are as exported, not scaled']);
     expect(inputNotes(summary(10, { samplingInterval: 1 }))).toEqual([]);
   });
+  it('packets of a link type the decoder does not read are named, with the link type (draft-ietf-opsawg-pcaplinktype registry)', () => {
+    const s = { ...summary(5, { undecodedLinkType: 127 }), problemCounts: { 'undecoded-linktype': 5 } };
+    expect(inputNotes(s)).toEqual(['note: 5 packets are of link type 127 IEEE802_11_RADIOTAP (Wi-Fi), which tidewatch does not decode '
+      + '(it reads Ethernet, raw IP, Linux cooked v1 and v2, BSD loopback, PPP and Cisco HDLC); they were skipped']);
+    expect(inputNotes({ ...summary(1, { undecodedLinkType: 4242 }), problemCounts: { 'undecoded-linktype': 1 } })[0]).toMatch(/^note: 1 packet is of link type 4242, which/);
+  });
 });
