@@ -16,6 +16,9 @@ describe('flow-log column names', () => {
     expect([canonicalKey('timestamp'), canonicalKey('octetTotalCount')]).toEqual(['start~', 'bytes~']);
     // unknown names come back trimmed (and are ignored); NetFlow v5's First/Last are uptime, not epoch: not taken
     expect([canonicalKey(' Label '), canonicalKey('First'), canonicalKey('Last')]).toEqual(['Label', 'First', 'Last']);
+    // forward and backward counters; a flow duration of unknown unit is not read
+    expect(['Total Fwd Packets', 'Total Backward Packets', 'Total Length of Fwd Packets', 'TotLen Bwd Pkts', 'Flow Duration'].map(canonicalKey))
+      .toEqual(['pkts', 'rpkts', 'bytes', 'rbytes', 'Flow Duration']);
   });
 
   it('a header must name an address each way, a protocol and a time', () => {
