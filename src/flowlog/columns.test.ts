@@ -98,3 +98,18 @@ describe('JSON Lines with nested objects', () => {
     expect(recs[0]).toMatchObject({ src: '192.0.2.99', dst: '198.51.100.2', dport: 443, proto: 6, bytes: 5000, pkts: 8, end: Date.UTC(2026, 2, 10, 9, 0, 5) });
   });
 });
+
+describe('hostile CSV headers (fast-check)', () => {
+  it('any header either reads or stops the file with one line naming it', async () => {
+    const fc = (await import('fast-check')).default;
+    const part = fc.oneof(fc.string({ maxLength: 12 }), fc.constantFrom('"', '""', 'src', 'dst', 'proto', 'start', ';', '\t', '|', ',', '\ufeff', '"a\nb"'));
+    await fc.assert(fc.asyncProperty(fc.array(part, { maxLength: 8 }), async (parts) => {
+      const text = `${parts.join('')}\n1700000000,6,192.0.2.1,192.0.2.2\n`;
+      try {
+        await runIngest(ingestCsv, enc(text), 7, 'h.csv');
+      } catch (e) {
+        expect((e as Error).message).toMatch(/^h\.csv: line \d+: not a flow log: [^\n]+$/);
+      }
+    }), { numRuns: 300 });
+  });
+});

@@ -217,7 +217,13 @@ export async function ingestCsv(src: ByteSource, sink: FlowSink, opts: IngestOpt
   let headerError: string | null = null, headerLine = 1;
   const start = (header: string) => {
     const delimiter = headerSeparator(header);
-    const columns = parseSync(header, { delimiter, bom: true, relax_quotes: true, relax_column_count: true })[0] as string[] | undefined;
+    let columns: string[] | undefined;
+    try {
+      columns = parseSync(header, { delimiter, bom: true, relax_quotes: true, relax_column_count: true })[0] as string[] | undefined;
+    } catch (e) {
+      headerError = `the header is not CSV (${(e as Error).message.split('\n')[0]})`;
+      return;
+    }
     const why = missingColumns((columns ?? []).map(canonicalKey));
     if (why) { headerError = why; return; }
     const p = parse({
