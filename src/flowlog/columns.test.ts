@@ -38,7 +38,9 @@ describe('flow-log column names', () => {
     expect([parseTimestamp(ms / 1000), parseTimestamp(ms), parseTimestamp(ms * 1000), parseTimestamp(`${ms}000000`)]).toEqual([ms, ms, ms, ms]);
     expect(parseTimestamp('2026-03-10 09:00:02.975')).toBe(ms);
     expect(parseTimestamp('2026-03-10T10:00:02.975+01:00')).toBe(ms);
-    expect(parseTimestamp('2026-03-10')).toBeNaN();
+    expect(parseTimestamp('2026/03/10 09:00:02.975')).toBe(ms);
+    // a date alone, and day-first or month-first dates, are ambiguous or not a time: not read
+    for (const bad of ['2026-03-10', '10/03/2026 09:00:02', '03/10/2026 09:00:02']) expect(parseTimestamp(bad)).toBeNaN();
   });
 
   it('the header line decides the separator: commas, semicolons, tabs or bars, not inside quotes', () => {

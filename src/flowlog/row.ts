@@ -23,7 +23,8 @@ function num(v: unknown): number {
 /**
  * Epoch seconds, milliseconds, microseconds or nanoseconds, told apart by magnitude (below 1e11 is
  * seconds, below 1e14 milliseconds, below 1e17 microseconds: each spans the years 1973 to 5138), or
- * RFC 3339 text; a date and time without a zone (`2026-03-10 09:00:02.5`) is taken as UTC.
+ * RFC 3339 text; a date and time without a zone (`2026-03-10 09:00:02.5`, or with slashes,
+ * `2026/03/10 09:00:02.5`) is taken as UTC.
  */
 export function parseTimestamp(v: unknown): number {
   const n = num(v);
@@ -32,7 +33,9 @@ export function parseTimestamp(v: unknown): number {
     return a < 1e11 ? n * 1000 : a < 1e14 ? n : a < 1e17 ? n / 1000 : n / 1e6;
   }
   if (typeof v !== 'string') return NaN;
-  const t = v.trim();
+  let t = v.trim();
+  // year first with slashes (2026/03/10 09:00:02) is unambiguous; day-first and month-first are not read
+  if (/^\d{4}\/\d{2}\/\d{2}[Tt ]/.test(t)) t = `${t.slice(0, 4)}-${t.slice(5, 7)}-${t.slice(8)}`;
   return parseRfc3339(/^\d{4}-\d{2}-\d{2}[Tt ]\d{2}:\d{2}:\d{2}(\.\d+)?$/.test(t) ? `${t}Z` : t);
 }
 
