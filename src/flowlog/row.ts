@@ -42,7 +42,7 @@ export function parseTimestamp(v: unknown): number {
 function count(row: Record<string, unknown>, k: string): number | string {
   const v = row[k];
   if (!present(v)) return 0;
-  const n = (k === 'flags' || k === 'rflags') && typeof v === 'string' ? parseTcpFlags(v) : num(v);
+  const n = num(v);
   return Number.isFinite(n) && n >= 0 ? n : `${k} is not a non-negative number`;
 }
 
@@ -62,6 +62,8 @@ function duration(row: Record<string, unknown>): number | string {
  */
 export function rowToFlow(row: Record<string, unknown>, exporter: string): FlowRecord | string {
   for (const k of ['pkts', 'bytes', 'rpkts', 'rbytes', 'start']) if (!present(row[k]) && present(row[`${k}~`])) row[k] = row[`${k}~`];
+  // TCP flags may be written as letters or names (columns.ts); a number stays a number
+  for (const k of ['flags', 'rflags']) if (typeof row[k] === 'string' && present(row[k])) row[k] = parseTcpFlags(row[k]);
   const src = typeof row['src'] === 'string' ? normaliseAddress(row['src'].trim()) : null;
   if (!src) return present(row['src']) ? `src ${JSON.stringify(row['src'])} is not an address` : 'src missing';
   const dst = typeof row['dst'] === 'string' ? normaliseAddress(row['dst'].trim()) : null;

@@ -224,10 +224,12 @@ export async function ingestCsv(src: ByteSource, sink: FlowSink, opts: IngestOpt
       headerError = `the header is not CSV (${(e as Error).message.split('\n')[0]})`;
       return;
     }
-    const why = missingColumns((columns ?? []).map(canonicalKey));
+    const keys = (columns ?? []).map(canonicalKey);
+    const why = missingColumns(keys);
     if (why) { headerError = why; return; }
+    // the stream parser still reads the header line; its columns are the ones just checked
     const p = parse({
-      bom: true, delimiter, columns: (h: string[]) => h.map(canonicalKey), relax_column_count: true, skip_empty_lines: true,
+      bom: true, delimiter, columns: () => keys, relax_column_count: true, skip_empty_lines: true,
       trim: true, info: true, skip_records_with_error: true,
       on_skip: (err: CsvError | undefined) => {
         if (err) t.bad(Number((err as unknown as { lines?: number }).lines ?? -1), 'bad-csv', err.message.split('\n')[0]!);
